@@ -1,0 +1,3 @@
+//! Documentation-only pages.
+
+pub mod conventions;
