@@ -34,9 +34,15 @@ pub mod error;
 pub mod fft;
 pub mod field;
 pub mod grid;
+pub mod input;
+pub mod layout;
+pub mod measure;
 pub mod optics;
 pub mod propagate;
+pub mod report;
+pub mod run;
 pub mod units;
+pub mod verify;
 
 pub use error::{Error, Result};
 pub use field::Field;
