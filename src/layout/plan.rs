@@ -1,0 +1,252 @@
+//! The validated plan: SI values, engine objects, the grid at every element
+//! and the method chosen for every free-space step.
+//!
+//! Conventions: `z_m` is measured along the axis from the source plane;
+//! element indices are 0-based positions in the layout's `[[element]]`
+//! list; grids change only at single-FFT Fresnel steps.
+
+use std::path::PathBuf;
+
+use ndarray::Array2;
+use num_complex::Complex64;
+
+use crate::beams::{GaussianBeam, Mode, Superposition};
+use crate::error::Result;
+use crate::field::Field;
+use crate::grid::Grid;
+use crate::measure::{Basis, CausticOptions};
+use crate::optics::{Aberration, Aperture, Mask, ThinLens, Tilt, Vortex};
+use crate::propagate::Method;
+
+/// A validated layout, ready to run.
+#[derive(Debug, Clone)]
+pub struct Plan {
+    /// The layout file.
+    pub path: PathBuf,
+    /// Title from the layout (or the file name).
+    pub title: String,
+    /// Vacuum wavelength, metres.
+    pub wavelength_m: f64,
+    /// Source power, watts.
+    pub power_w: f64,
+    /// Grid at the source plane.
+    pub grid: Grid,
+    /// The source field.
+    pub source: Source,
+    /// The elements in order.
+    pub steps: Vec<Step>,
+    /// Sampling warnings found while planning.
+    pub warnings: Vec<String>,
+}
+
+/// The field at the source plane.
+#[derive(Debug, Clone)]
+pub enum Source {
+    /// A single HG or LG mode (the Gaussian is HG_00).
+    Mode {
+        /// The mode.
+        mode: Mode,
+        /// z of its waist relative to the source plane, metres.
+        waist_at_m: f64,
+    },
+    /// A coherent sum of modes sharing one waist.
+    Superposition {
+        /// The terms.
+        modes: Superposition,
+        /// The shared embedded Gaussian.
+        beam: GaussianBeam,
+        /// z of the waist relative to the source plane, metres.
+        waist_at_m: f64,
+    },
+    /// A uniformly lit disc with area-weighted edge, flat phase.
+    FlatTop {
+        /// Disc radius, metres.
+        radius_m: f64,
+    },
+    /// A sampled field read from a file (complex NPY, or the square root of
+    /// a PNG intensity with flat phase).
+    Sampled {
+        /// Where it came from.
+        what: String,
+        /// The samples, `(n, n)`.
+        values: Array2<Complex64>,
+    },
+}
+
+impl Source {
+    /// Samples the source on `grid`, normalised to `power_w`.
+    ///
+    /// # Errors
+    /// [`crate::Error::Physics`] if the source has no power on the grid.
+    pub fn field(&self, grid: Grid, wavelength_m: f64, power_w: f64) -> Result<Field> {
+        let mut field = match self {
+            Source::Mode { mode, waist_at_m } => mode.sample(grid, -waist_at_m, 1.0)?,
+            Source::Superposition {
+                modes, waist_at_m, ..
+            } => modes.sample(grid, -waist_at_m, 1.0)?,
+            Source::FlatTop { radius_m } => {
+                let disc = Aperture::new(crate::optics::ApertureShape::Circle {
+                    radius_m: *radius_m,
+                })?;
+                let dx = grid.spacing_m();
+                Field::from_fn(grid, wavelength_m, |x, y| {
+                    Complex64::new(disc.pixel_transmission(x, y, dx), 0.0)
+                })?
+            }
+            Source::Sampled { values, .. } => {
+                Field::from_values(grid, wavelength_m, values.clone())?
+            }
+        };
+        field.normalise_to(power_w)?;
+        Ok(field)
+    }
+
+    /// The embedded Gaussian and its waist position, for the paraxial check
+    /// (None for sources without one).
+    pub fn embedded_gaussian(&self) -> Option<(GaussianBeam, f64)> {
+        match self {
+            Source::Mode { mode, waist_at_m } => Some((mode.beam, *waist_at_m)),
+            Source::Superposition {
+                beam, waist_at_m, ..
+            } => Some((*beam, *waist_at_m)),
+            _ => None,
+        }
+    }
+
+    /// `[Mx², My²]` of the source when known in closed form.
+    pub fn m2(&self) -> Option<[f64; 2]> {
+        match self {
+            Source::Mode { mode, .. } => Some(mode.shape.m2()),
+            _ => None,
+        }
+    }
+}
+
+/// One element of the plan.
+#[derive(Debug, Clone)]
+pub struct Step {
+    /// 0-based position in the layout.
+    pub index: usize,
+    /// Optional name from the layout (probes always have one).
+    pub name: Option<String>,
+    /// Line of the `[[element]]` header in the layout, if known.
+    pub line: Option<usize>,
+    /// Axial position of the element's entrance, metres from the source.
+    pub z_m: f64,
+    /// Grid entering the element.
+    pub grid_before: Grid,
+    /// Grid leaving the element.
+    pub grid_after: Grid,
+    /// What the element does.
+    pub op: Operation,
+}
+
+impl Step {
+    /// Kind name as used in layouts and reports.
+    pub fn kind(&self) -> &'static str {
+        self.op.kind()
+    }
+    /// Axial length of the element (non-zero only for spaces), metres.
+    pub fn length_m(&self) -> f64 {
+        match self.op {
+            Operation::Space { length_m, .. } => length_m,
+            _ => 0.0,
+        }
+    }
+}
+
+/// What an element does to the field.
+#[derive(Debug, Clone)]
+pub enum Operation {
+    /// Free-space propagation.
+    Space {
+        /// Signed length, metres.
+        length_m: f64,
+        /// Method actually used (never `Auto`).
+        method: Method,
+        /// Why, in words.
+        reason: String,
+        /// A paraxial lens immediately before, merged into this step's
+        /// Fresnel chirp (focal length, metres).
+        merged_lens_m: Option<f64>,
+    },
+    /// Aperture or obscuration.
+    Aperture(Aperture),
+    /// Thin lens; `merged` when its phase is applied inside the next
+    /// Fresnel step instead of on the grid.
+    Lens {
+        /// The lens.
+        lens: ThinLens,
+        /// True when the next step applies this lens analytically.
+        merged: bool,
+    },
+    /// Zernike phase screen.
+    Aberration(Aberration),
+    /// Spiral phase plate.
+    Vortex(Vortex),
+    /// Wavefront tilt.
+    Tilt(Tilt),
+    /// Sampled mask.
+    Mask(Mask),
+    /// A plane where results are kept.
+    Probe(ProbeSpec),
+}
+
+impl Operation {
+    /// Kind name as used in layouts and reports.
+    pub fn kind(&self) -> &'static str {
+        match self {
+            Operation::Space { .. } => "space",
+            Operation::Aperture(_) => "aperture",
+            Operation::Lens { .. } => "lens",
+            Operation::Aberration(_) => "aberration",
+            Operation::Vortex(_) => "vortex",
+            Operation::Tilt(_) => "tilt",
+            Operation::Mask(_) => "mask",
+            Operation::Probe(_) => "probe",
+        }
+    }
+    /// True for elements removed in a Strehl reference run: aberrations and
+    /// phase or complex masks (apertures, lenses, vortices and tilts stay).
+    pub fn is_aberration(&self) -> bool {
+        match self {
+            Operation::Aberration(_) => true,
+            Operation::Mask(m) => m.kind != crate::optics::MaskKind::Amplitude,
+            _ => false,
+        }
+    }
+}
+
+/// What to do at a probe.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ProbeSpec {
+    /// Name, unique in the layout; used for file names.
+    pub name: String,
+    /// Write an intensity PNG.
+    pub save_intensity: bool,
+    /// Write a phase PNG.
+    pub save_phase: bool,
+    /// Write the complex field as NPY.
+    pub save_field: bool,
+    /// Write a radial-profile plot.
+    pub save_profile: bool,
+    /// Modal decomposition.
+    pub modes: Option<ModesSpec>,
+    /// Through-focus scan and M² fit.
+    pub caustic: Option<CausticOptions>,
+    /// Compare with the same path minus aberrations.
+    pub strehl: bool,
+}
+
+/// Modal decomposition settings of a probe.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ModesSpec {
+    /// HG or LG.
+    pub basis: Basis,
+    /// Maximum mode order.
+    pub order: usize,
+    /// Basis waist, metres (None: best fit).
+    pub waist_m: Option<f64>,
+    /// Absolute z of the basis waist from the source plane (None: best fit).
+    pub waist_at_m: Option<f64>,
+}
