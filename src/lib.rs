@@ -31,6 +31,7 @@
 pub mod beams;
 pub mod doc;
 pub mod error;
+pub mod examples;
 pub mod fft;
 pub mod field;
 pub mod grid;

@@ -1,1 +1,593 @@
-//! (in progress)
+//! Executes a [`Plan`]: steps the source field through every element,
+//! keeps the power books per element, measures at probes, and writes the
+//! files the layout asks for.
+//!
+//! Conventions: `z_m` is from the source plane; power lost by an element is
+//! `power_in_w − power_out_w`; a propagation's loss is the power its band
+//! limit and evanescent cut removed. Before each FFT propagation the power
+//! in the outer 5 % border of the grid is checked (wrap-around), and after
+//! it the band-limited power; both become warnings above 1e-6 of the
+//! field's power. Files are written into `out_dir`, which the caller makes
+//! atomic (write to a temporary directory, then rename).
+
+use std::collections::BTreeMap;
+use std::path::Path;
+
+use ndarray::s;
+
+use crate::error::{Error, Result};
+use crate::field::Field;
+use crate::layout::advisor::{self, fmt_len};
+use crate::layout::paraxial::{self, ParaxialPoint};
+use crate::layout::{Operation, Plan, ProbeSpec, Step};
+use crate::measure::{self, Basis, BasisChoice};
+use crate::optics::Transmission;
+use crate::propagate::{AngularSpectrum, FresnelSingleFft, Method};
+use crate::report::json::{
+    BasisRecord, CausticRecord, ElementRecord, ModeRecord, ParaxialRecord, ProbeRecord, Report,
+    RingRecord,
+};
+
+/// Fraction of the field power in the outer border above which a warning is raised.
+pub const BORDER_WARNING_FRACTION: f64 = 1e-6;
+/// Width of the border checked before FFT propagation, as a fraction of n.
+pub const BORDER_FRACTION: f64 = 0.05;
+
+/// Progress of a run, for a progress bar.
+#[derive(Debug, Clone)]
+pub struct Progress {
+    /// Steps finished.
+    pub done: usize,
+    /// Steps in total.
+    pub total: usize,
+    /// What is happening now.
+    pub message: String,
+}
+
+/// Options of [`run`].
+pub struct RunOptions<'a> {
+    /// Directory for the saved files (None: measure only, write nothing).
+    pub out_dir: Option<&'a Path>,
+    /// Called after each element.
+    pub progress: Option<&'a (dyn Fn(Progress) + Sync)>,
+}
+
+/// Estimated peak memory of running `plan`, bytes.
+pub fn estimate_memory_bytes(plan: &Plan) -> f64 {
+    let n = plan
+        .steps
+        .iter()
+        .map(|s| s.grid_after.n())
+        .chain(std::iter::once(plan.grid.n()))
+        .max()
+        .unwrap_or(plan.grid.n()) as f64;
+    let complex = 16.0 * n * n;
+    let real = 8.0 * n * n;
+    let has_caustic = plan
+        .steps
+        .iter()
+        .any(|s| matches!(&s.op, Operation::Probe(p) if p.caustic.is_some()));
+    let has_modes = plan
+        .steps
+        .iter()
+        .any(|s| matches!(&s.op, Operation::Probe(p) if p.modes.is_some()));
+    // Field + transfer function, irradiance and a measurement copy; a
+    // caustic holds the probe spectrum and a working plane; a modal
+    // decomposition one sampled mode at a time.
+    let mut bytes = 2.0 * complex + 2.0 * real;
+    if has_caustic {
+        bytes += 2.0 * complex;
+    }
+    if has_modes {
+        bytes += complex;
+    }
+    bytes + 40.0 * 1024.0 * 1024.0
+}
+
+/// The memory limit: `BEAMWRIGHT_MEMORY_LIMIT_MIB` if set, else 90 % of the
+/// available memory reported by the OS (16 GiB if unknown), bytes.
+pub fn memory_limit_bytes() -> f64 {
+    if let Some(mib) = std::env::var("BEAMWRIGHT_MEMORY_LIMIT_MIB")
+        .ok()
+        .and_then(|v| v.trim().parse::<f64>().ok())
+    {
+        return mib * 1024.0 * 1024.0;
+    }
+    std::fs::read_to_string("/proc/meminfo")
+        .ok()
+        .and_then(|text| {
+            text.lines()
+                .find(|l| l.starts_with("MemAvailable:"))
+                .and_then(|l| l.split_whitespace().nth(1))
+                .and_then(|kb| kb.parse::<f64>().ok())
+        })
+        .map(|kb| 0.9 * kb * 1024.0)
+        .unwrap_or(16.0 * 1024.0 * 1024.0 * 1024.0)
+}
+
+/// Refuses plans whose estimated memory exceeds the limit.
+///
+/// # Errors
+/// [`Error::TooLarge`] with both numbers.
+pub fn check_memory(plan: &Plan) -> Result<()> {
+    let needed = estimate_memory_bytes(plan);
+    let limit = memory_limit_bytes();
+    if needed > limit {
+        return Err(Error::TooLarge {
+            what: format!("a {n}x{n} grid", n = plan.grid.n()),
+            needed_mib: needed / 1048576.0,
+            limit_mib: limit / 1048576.0,
+        });
+    }
+    Ok(())
+}
+
+/// `sqrt(M²)` of the source: exact for single modes, measured (ISO second-moment
+/// radius over the embedded Gaussian's radius) for superpositions.
+fn source_width_factor(plan: &Plan, source: &Field) -> f64 {
+    if let Some([mx, my]) = plan.source.m2() {
+        return ((mx + my) / 2.0).sqrt();
+    }
+    match (
+        plan.source.embedded_gaussian(),
+        measure::iso_moments(&source.irradiance(), source.grid()),
+    ) {
+        (Some((beam, at)), Ok(m)) => {
+            let w_sim = second_moment_radius(m.d4sigma_m);
+            w_sim / beam.radius_at(-at)
+        }
+        _ => 1.0,
+    }
+}
+
+/// Generalised second-moment radius `sqrt(2(σx² + σy²))` from D4σ diameters.
+pub fn second_moment_radius(d4sigma_m: [f64; 2]) -> f64 {
+    ((d4sigma_m[0].powi(2) + d4sigma_m[1].powi(2)) / 8.0).sqrt()
+}
+
+/// Static plan warnings plus the paraxial trace (used by `check` and `run`).
+///
+/// # Errors
+/// As [`crate::layout::Source::field`] (the source is sampled to measure it).
+pub fn plan_warnings(plan: &Plan) -> Result<Vec<String>> {
+    check_memory(plan)?;
+    let source = plan.source.field(plan.grid, plan.wavelength_m, plan.power_w)?;
+    let trace = paraxial::trace(plan);
+    let factor = source_width_factor(plan, &source);
+    let mut warnings = plan.warnings.clone();
+    warnings.extend(advisor::advise(plan, trace.as_ref(), factor));
+    Ok(warnings)
+}
+
+/// Power in the outer `BORDER_FRACTION` of the grid, watts.
+pub fn border_power_w(field: &Field) -> f64 {
+    let n = field.grid().n();
+    let b = ((n as f64 * BORDER_FRACTION).ceil() as usize).max(1).min(n / 2);
+    let v = &field.values;
+    let total = crate::field::sum_norm_sqr(v);
+    let inner = v.slice(s![b..n - b, b..n - b]);
+    let inner_sum: f64 = inner.iter().map(|c| c.norm_sqr()).sum();
+    (total - inner_sum).max(0.0) * field.grid().cell_area_m2()
+}
+
+/// Applies one non-probe step to the field; returns the bookkeeping and
+/// warnings. `skip_aberrations` leaves out aberration and phase-mask
+/// elements (the Strehl reference path).
+fn apply_step(
+    step: &Step,
+    next_merged_lens: Option<f64>,
+    field: &mut Field,
+    skip_aberrations: bool,
+) -> Result<(Transmission, Vec<String>)> {
+    let mut warnings = Vec::new();
+    let p_in = field.power_w();
+    if skip_aberrations && step.op.is_aberration() {
+        return Ok((Transmission::lossless(p_in), warnings));
+    }
+    let t = match &step.op {
+        Operation::Space {
+            length_m,
+            method,
+            merged_lens_m,
+            ..
+        } => {
+            let border = border_power_w(field);
+            if p_in > 0.0 && border / p_in > BORDER_WARNING_FRACTION {
+                warnings.push(format!(
+                    "{:.2e} of the power is in the outer {:.0} % of the grid before this propagation; it will wrap around (angular spectrum) or alias (Fresnel): enlarge the window n·dx",
+                    border / p_in,
+                    100.0 * BORDER_FRACTION
+                ));
+            }
+            let removed = match method {
+                Method::Fresnel => {
+                    let mut step = FresnelSingleFft::new(*length_m)?;
+                    if let Some(f) = merged_lens_m {
+                        step = step.after_lens(*f)?;
+                    }
+                    step.apply(field)?;
+                    0.0
+                }
+                _ => {
+                    if *length_m == 0.0 {
+                        0.0
+                    } else {
+                        AngularSpectrum::new(field.grid(), field.wavelength_m(), *length_m)?
+                            .apply(field)?
+                    }
+                }
+            };
+            if p_in > 0.0 && removed / p_in > BORDER_WARNING_FRACTION {
+                warnings.push(format!(
+                    "the band limit and evanescent cut removed {:.2e} of the power: the step is longer than this grid can carry at these angles; use a finer spacing or method = \"fresnel\"",
+                    removed / p_in
+                ));
+            }
+            let p = field.power_w();
+            Transmission {
+                power_in_w: p_in,
+                power_out_w: p_in - removed,
+                power_sampled_w: p,
+            }
+        }
+        Operation::Aperture(a) => a.apply(field),
+        Operation::Lens { lens, merged } => {
+            if *merged && next_merged_lens.is_some() {
+                Transmission::lossless(p_in)
+            } else {
+                lens.apply(field)
+            }
+        }
+        Operation::Aberration(a) => a.apply(field),
+        Operation::Vortex(v) => v.apply(field),
+        Operation::Tilt(t) => t.apply(field),
+        Operation::Mask(m) => m.apply(field)?,
+        Operation::Probe(_) => Transmission::lossless(p_in),
+    };
+    Ok((t, warnings))
+}
+
+/// Steps the source through the plan, calling `at_probe` at every probe.
+fn execute(
+    plan: &Plan,
+    skip_aberrations: bool,
+    mut on_step: impl FnMut(&Step, &Transmission, Vec<String>, &Field) -> Result<()>,
+    mut at_probe: impl FnMut(&Step, &ProbeSpec, &Field) -> Result<()>,
+) -> Result<()> {
+    let mut field = plan.source.field(plan.grid, plan.wavelength_m, plan.power_w)?;
+    for (i, step) in plan.steps.iter().enumerate() {
+        let next_merged = plan.steps.get(i + 1).and_then(|s| match s.op {
+            Operation::Space { merged_lens_m, .. } => merged_lens_m,
+            _ => None,
+        });
+        let (t, warnings) = apply_step(step, next_merged, &mut field, skip_aberrations)?;
+        if let Operation::Probe(spec) = &step.op {
+            at_probe(step, spec, &field)?;
+        }
+        on_step(step, &t, warnings, &field)?;
+    }
+    Ok(())
+}
+
+/// Runs the plan and returns the report; writes the requested files into
+/// `options.out_dir`.
+///
+/// # Errors
+/// Any engine error (bad sampling that makes a width undefined, files that
+/// cannot be written) and [`Error::TooLarge`] before allocating.
+pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
+    let warnings = plan_warnings(plan)?;
+    let source = plan.source.field(plan.grid, plan.wavelength_m, plan.power_w)?;
+    let width_factor = source_width_factor(plan, &source);
+    drop(source);
+    let trace = paraxial::trace(plan);
+    let total = plan.steps.len();
+    let needs_reference = plan
+        .steps
+        .iter()
+        .any(|s| matches!(&s.op, Operation::Probe(p) if p.strehl));
+    let report_progress = |done: usize, message: String| {
+        if let Some(cb) = options.progress {
+            cb(Progress {
+                done,
+                total,
+                message,
+            });
+        }
+    };
+
+    // Strehl reference: the same path without aberrations, peaks only.
+    let mut reference_peaks: BTreeMap<String, f64> = BTreeMap::new();
+    if needs_reference {
+        report_progress(0, "reference path without aberrations".into());
+        execute(
+            plan,
+            true,
+            |_, _, _, _| Ok(()),
+            |_, spec, field| {
+                if spec.strehl {
+                    let (peak, _) = measure::peak(&field.irradiance(), field.grid());
+                    reference_peaks.insert(spec.name.clone(), peak);
+                }
+                Ok(())
+            },
+        )?;
+    }
+
+    let mut elements = Vec::with_capacity(total);
+    let mut probes = Vec::new();
+    // Shared by both callbacks: aberrations seen so far (for Maréchal).
+    let rms_waves_sq = std::cell::Cell::new(0.0);
+    execute(
+        plan,
+        false,
+        |step, t, step_warnings, field| {
+            if let Operation::Aberration(a) = &step.op {
+                rms_waves_sq.set(rms_waves_sq.get() + (a.rms_m() / plan.wavelength_m).powi(2));
+            }
+            let (method, method_reason) = match &step.op {
+                Operation::Space { method, reason, .. } => {
+                    (Some(method.name().to_string()), Some(reason.clone()))
+                }
+                _ => (None, None),
+            };
+            elements.push(ElementRecord {
+                index: step.index,
+                kind: step.kind().to_string(),
+                name: step.name.clone(),
+                z_m: step.z_m,
+                power_in_w: t.power_in_w,
+                power_out_w: t.power_out_w,
+                power_sampled_w: t.power_sampled_w,
+                power_lost_w: t.power_in_w - t.power_out_w,
+                method,
+                method_reason,
+                grid_after: field.grid().into(),
+                warnings: step_warnings,
+            });
+            report_progress(
+                step.index + 1,
+                format!("element[{}] {}", step.index, step.kind()),
+            );
+            Ok(())
+        },
+        |step, spec, field| {
+            let point = trace.as_ref().map(|(_, pts)| pts[step.index]);
+            let mut record = measure_probe(plan, step, spec, field, point, width_factor, options.out_dir)?;
+            if spec.strehl {
+                let (peak, _) = measure::peak(&field.irradiance(), field.grid());
+                record.strehl = reference_peaks
+                    .get(&spec.name)
+                    .map(|&r| measure::strehl_ratio(peak, r));
+                record.strehl_marechal = Some(measure::marechal(rms_waves_sq.get().sqrt()));
+            }
+            probes.push(record);
+            Ok(())
+        },
+    )?;
+
+    Ok(Report {
+        version: env!("CARGO_PKG_VERSION").to_string(),
+        layout: plan.path.display().to_string(),
+        title: plan.title.clone(),
+        wavelength_m: plan.wavelength_m,
+        power_w: plan.power_w,
+        grid: plan.grid.into(),
+        elements,
+        probes,
+        warnings,
+    })
+}
+
+/// Measures everything a probe asks for and writes its files.
+fn measure_probe(
+    plan: &Plan,
+    step: &Step,
+    spec: &ProbeSpec,
+    field: &Field,
+    paraxial_point: Option<ParaxialPoint>,
+    width_factor: f64,
+    out_dir: Option<&Path>,
+) -> Result<ProbeRecord> {
+    let grid = field.grid();
+    let irradiance = field.irradiance();
+    let power_w = field.power_w();
+    let mut warnings = Vec::new();
+    let iso = measure::iso_moments(&irradiance, grid)?;
+    let plain = measure::plain_moments(&irradiance, grid)?;
+    if !iso.converged {
+        warnings.push(format!(
+            "the ISO 11146 integration area did not converge after {} iterations; widths are approximate",
+            iso.iterations
+        ));
+    }
+    let (peak, peak_at) = measure::peak(&irradiance, grid);
+    let mut encircled = BTreeMap::new();
+    for fraction in [0.5, 0.865, 0.95] {
+        encircled.insert(
+            format!("{fraction}"),
+            measure::radius_for_fraction(field, iso.centroid_m, fraction),
+        );
+    }
+    let ring = measure::ring_metrics(&irradiance, grid, iso.centroid_m).map(|r| RingRecord {
+        ring_radius_m: r.ring_radius_m,
+        ring_peak_w_m2: r.ring_peak_w_m2,
+        centre_w_m2: r.centre_w_m2,
+        null_depth: r.null_depth,
+    });
+    let paraxial = paraxial_point.map(|p| {
+        let predicted = p.w_m * width_factor;
+        let simulated = second_moment_radius(iso.d4sigma_m);
+        ParaxialRecord {
+            w_m: p.w_m,
+            radius_of_curvature_m: p
+                .radius_of_curvature_m
+                .is_finite()
+                .then_some(p.radius_of_curvature_m),
+            gouy_rad: p.gouy_rad,
+            predicted_radius_m: predicted,
+            width_deviation: simulated / predicted - 1.0,
+        }
+    });
+    let (modes, modes_basis) = match &spec.modes {
+        Some(m) => {
+            let choice = BasisChoice {
+                waist_m: m.waist_m,
+                z_from_waist_m: m.waist_at_m.map(|at| step.z_m - at),
+            };
+            let d = measure::decompose(field, m.basis, m.order, &choice)?;
+            let records = d
+                .terms
+                .iter()
+                .map(|t| {
+                    let (p, l, mm, nn) = match t.shape {
+                        crate::beams::ModeShape::LaguerreGauss { p, l } => {
+                            (Some(p), Some(l), None, None)
+                        }
+                        crate::beams::ModeShape::HermiteGauss { m, n } => {
+                            (None, None, Some(m), Some(n))
+                        }
+                    };
+                    ModeRecord {
+                        p,
+                        l,
+                        m: mm,
+                        n: nn,
+                        power_fraction: t.power_fraction,
+                        phase_rad: t.phase_rad,
+                    }
+                })
+                .collect();
+            warnings.extend(d.warnings.iter().cloned());
+            let rule = d.rule.clone();
+            let basis = BasisRecord {
+                basis: match m.basis {
+                    Basis::LaguerreGauss => "laguerre-gauss",
+                    Basis::HermiteGauss => "hermite-gauss",
+                }
+                .to_string(),
+                waist_m: d.waist_m,
+                waist_z_m: step.z_m - d.z_from_waist_m,
+                captured_fraction: d.captured_fraction,
+                rule,
+            };
+            if d.captured_fraction < 0.9 {
+                warnings.push(format!(
+                    "the truncated {} basis captures only {:.1} % of the power; raise modes.order or set modes.waist",
+                    basis.basis,
+                    100.0 * d.captured_fraction
+                ));
+            }
+            (Some(records), Some(basis))
+        }
+        None => (None, None),
+    };
+    let mut files = BTreeMap::new();
+    let caustic = match &spec.caustic {
+        Some(options) => {
+            let c = measure::caustic(field, options)?;
+            warnings.extend(c.warnings.iter().cloned());
+            let record = CausticRecord {
+                m2: [c.fit[0].m2, c.fit[1].m2],
+                waist_d4sigma_m: [c.fit[0].waist_d4sigma_m, c.fit[1].waist_d4sigma_m],
+                waist_z_m: [
+                    step.z_m + c.fit[0].waist_z_m,
+                    step.z_m + c.fit[1].waist_z_m,
+                ],
+                rayleigh_m: [c.fit[0].rayleigh_m, c.fit[1].rayleigh_m],
+                divergence_rad: [c.fit[0].divergence_rad, c.fit[1].divergence_rad],
+                residual_rms_m: [c.fit[0].residual_rms_m, c.fit[1].residual_rms_m],
+                z_m: c.z_m.iter().map(|z| step.z_m + z).collect(),
+                d4sigma_m: c.d4sigma_m.clone(),
+            };
+            if let Some(dir) = out_dir {
+                let name = format!("{}_caustic.png", spec.name);
+                crate::report::plot::write_caustic_plot(
+                    &dir.join(&name),
+                    &crate::report::plot::CausticPlot {
+                        z_m: &record.z_m,
+                        d4sigma_m: &record.d4sigma_m,
+                        fit: caustic_fit_in_absolute_z(&c, step.z_m),
+                        m2: record.m2,
+                        title: &format!("{}: caustic", spec.name),
+                    },
+                )?;
+                files.insert("caustic".to_string(), name);
+            }
+            Some(record)
+        }
+        None => None,
+    };
+    if let Some(dir) = out_dir {
+        let title = format!("{} — {} at z = {}", plan.title, spec.name, fmt_len(step.z_m));
+        if spec.save_intensity {
+            let name = format!("{}_intensity.png", spec.name);
+            crate::report::png::write_intensity_png(&dir.join(&name), field, &title)?;
+            files.insert("intensity".to_string(), name);
+        }
+        if spec.save_phase {
+            let name = format!("{}_phase.png", spec.name);
+            crate::report::png::write_phase_png(&dir.join(&name), field, &title)?;
+            files.insert("phase".to_string(), name);
+        }
+        if spec.save_field {
+            let name = format!("{}_field.npy", spec.name);
+            crate::report::npy::write_field_npy(&dir.join(&name), field)?;
+            files.insert("field".to_string(), name);
+        }
+        if spec.save_profile {
+            let name = format!("{}_profile.png", spec.name);
+            let d = (iso.principal_d4sigma_m[0].max(1e-30) * 1.5).min(grid.width_m() / 2.0);
+            let bins = ((d / grid.spacing_m()).ceil() as usize).clamp(16, grid.n() / 2);
+            let (r, i) = measure::radial_profile(&irradiance, grid, iso.centroid_m, bins);
+            let r: Vec<f64> = r.into_iter().filter(|&r| r <= d).collect();
+            let i = &i[..r.len()];
+            crate::report::plot::write_radial_profile_plot(
+                &dir.join(&name),
+                &r,
+                i,
+                None,
+                &format!("{}: radial profile", spec.name),
+            )?;
+            files.insert("profile".to_string(), name);
+        }
+    }
+    Ok(ProbeRecord {
+        name: spec.name.clone(),
+        z_m: step.z_m,
+        grid: grid.into(),
+        power_w,
+        power_fraction: power_w / plan.power_w,
+        centroid_m: iso.centroid_m,
+        d4sigma_m: iso.d4sigma_m,
+        d4sigma_principal_m: iso.principal_d4sigma_m,
+        azimuth_rad: iso.azimuth_rad,
+        iso_converged: iso.converged,
+        d4sigma_plain_m: plain.d4sigma_m,
+        peak_irradiance_w_m2: peak,
+        peak_location_m: peak_at,
+        axis_irradiance_w_m2: irradiance[[grid.centre_index(), grid.centre_index()]],
+        encircled_radius_m: encircled,
+        ring,
+        paraxial,
+        strehl: None,
+        strehl_marechal: None,
+        modes,
+        modes_basis,
+        caustic,
+        files,
+        warnings,
+    })
+}
+
+/// The caustic's diameter fits `d² = a + b·z + c·z²` re-expressed in absolute z.
+fn caustic_fit_in_absolute_z(c: &measure::Caustic, z0: f64) -> [(f64, f64, f64); 2] {
+    let shift = |f: &measure::AxisFit| {
+        // d²(z) = d0² + θ²(z − zw)², with θ the full-angle divergence.
+        let theta = f.divergence_rad;
+        let zw = z0 + f.waist_z_m;
+        let d0 = f.waist_d4sigma_m;
+        (d0 * d0 + theta * theta * zw * zw, -2.0 * theta * theta * zw, theta * theta)
+    };
+    [shift(&c.fit[0]), shift(&c.fit[1])]
+}
