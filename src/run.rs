@@ -323,7 +323,8 @@ pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
         false,
         |step, t, step_warnings, field| {
             if let Operation::Aberration(a) = &step.op {
-                rms_waves_sq.set(rms_waves_sq.get() + (a.rms_m() / plan.wavelength_m).powi(2));
+                let sigma_waves = a.amplitude_weighted_rms_m(field) / plan.wavelength_m;
+                rms_waves_sq.set(rms_waves_sq.get() + sigma_waves * sigma_waves);
             }
             let (method, method_reason) = match &step.op {
                 Operation::Space { method, reason, .. } => {

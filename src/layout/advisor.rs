@@ -24,11 +24,13 @@ pub const SCALAR_NA: f64 = 0.6;
 /// Formats metres with a readable unit.
 pub fn fmt_len(m: f64) -> String {
     let a = m.abs();
-    if a >= 1.0 {
+    if a == 0.0 {
+        "0 m".to_string()
+    } else if a >= 0.9995 {
         format!("{m:.4} m")
-    } else if a >= 1e-3 {
+    } else if a >= 0.9995e-3 {
         format!("{:.4} mm", m * 1e3)
-    } else if a >= 1e-6 {
+    } else if a >= 0.9995e-6 {
         format!("{:.3} µm", m * 1e6)
     } else {
         format!("{:.3} nm", m * 1e9)

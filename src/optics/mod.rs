@@ -16,7 +16,7 @@ pub mod zernike;
 
 pub use aperture::{disk_pixel_fraction, Aperture, ApertureShape, Polarity};
 pub use mask::{Mask, MaskKind};
-pub use phase_screens::{Tilt, Vortex};
+pub use phase_screens::{Tilt, Vortex, VORTEX_AVERAGED_RADIUS};
 pub use thin_lens::{LensModel, ThinLens};
 pub use zernike::Aberration;
 

@@ -138,6 +138,42 @@ impl Aberration {
             .sqrt()
     }
 
+    /// RMS of the optical path over the beam, weighted by the field's
+    /// amplitude `|U|`, piston removed, metres. This is the σ of the
+    /// Maréchal estimate for a non-uniform pupil: the on-axis focal
+    /// amplitude is `∫A·exp(iΦ)`, whose expansion weights the phase variance
+    /// by `A` (PHYSICS.md §6, derived there).
+    pub fn amplitude_weighted_rms_m(&self, field: &Field) -> f64 {
+        use ndarray::Axis;
+        use rayon::prelude::*;
+        let xs = field.grid().coords_m();
+        let rows: Vec<[f64; 3]> = field
+            .values
+            .axis_iter(Axis(0))
+            .into_par_iter()
+            .enumerate()
+            .map(|(iy, row)| {
+                let y = xs[iy];
+                row.iter().zip(&xs).fold([0.0; 3], |[a, aw, aw2], (v, &x)| {
+                    let amp = v.norm();
+                    if amp == 0.0 {
+                        return [a, aw, aw2];
+                    }
+                    let w = self.path_m(x, y);
+                    [a + amp, aw + amp * w, aw2 + amp * w * w]
+                })
+            })
+            .collect();
+        let [a, aw, aw2] = rows
+            .iter()
+            .fold([0.0; 3], |acc, r| [acc[0] + r[0], acc[1] + r[1], acc[2] + r[2]]);
+        if a <= 0.0 {
+            return 0.0;
+        }
+        let mean = aw / a;
+        (aw2 / a - mean * mean).max(0.0).sqrt()
+    }
+
     /// Multiplies the field by `exp(ikW)`.
     pub fn apply(&self, field: &mut Field) -> Transmission {
         let p = field.power_w();

@@ -246,7 +246,8 @@ pub struct ProbeRecord {
     /// Strehl ratio against the path without aberrations.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub strehl: Option<f64>,
-    /// Maréchal estimate from the RMS wavefront error upstream.
+    /// Maréchal estimate `exp(−(2πσ)²)`, σ the RMS wavefront error (waves) of the
+    /// aberrations upstream, each weighted by the beam amplitude where it acts.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub strehl_marechal: Option<f64>,
     /// Modal coefficients.
