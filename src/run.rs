@@ -538,17 +538,32 @@ fn measure_probe(
         }
         if spec.save_profile {
             let name = format!("{}_profile.png", spec.name);
-            let d = (iso.principal_d4sigma_m[0].max(1e-30) * 1.5).min(grid.width_m() / 2.0);
-            let bins = ((d / grid.spacing_m()).ceil() as usize).clamp(16, grid.n() / 2);
-            let (r, i) = measure::radial_profile(&irradiance, grid, iso.centroid_m, bins);
-            let r: Vec<f64> = r.into_iter().filter(|&r| r <= d).collect();
-            let i = &i[..r.len()];
+            // One-pixel annuli, shown out to 1.5 principal D4σ diameters.
+            let shown = (iso.principal_d4sigma_m[0] * 1.5).min(grid.width_m() / 2.0);
+            let (r, i) = measure::radial_profile(&irradiance, grid, iso.centroid_m, grid.n());
+            let keep = r.iter().take_while(|&&r| r <= shown).count().max(2).min(r.len());
+            // For a Gaussian source, the paraxial Gaussian with this probe's
+            // power is drawn for comparison.
+            let reference: Option<Vec<f64>> = match (&paraxial, plan.source.m2()) {
+                (Some(p), Some([mx, my])) if mx == 1.0 && my == 1.0 => Some(
+                    r[..keep]
+                        .iter()
+                        .map(|&r| {
+                            2.0 * power_w / (std::f64::consts::PI * p.w_m * p.w_m)
+                                * (-2.0 * r * r / (p.w_m * p.w_m)).exp()
+                        })
+                        .collect(),
+                ),
+                _ => None,
+            };
             crate::report::plot::write_radial_profile_plot(
                 &dir.join(&name),
-                &r,
-                i,
-                None,
-                &format!("{}: radial profile", spec.name),
+                &r[..keep],
+                &i[..keep],
+                reference
+                    .as_deref()
+                    .map(|v| ("paraxial Gaussian, same power", v)),
+                &format!("{}: radial profile about the centroid", spec.name),
             )?;
             files.insert("profile".to_string(), name);
         }
