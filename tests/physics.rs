@@ -303,8 +303,8 @@ fn fft2_equals_naive_dft_and_is_thread_count_independent() -> TestResult {
 #[test]
 fn direct_fresnel_sum_matches_closed_form_modes() -> TestResult {
     // Source: Siegman, Lasers (1986) ch. 16-17 (from memory), PHYSICS.md §3:
-    // HG_mn at z = zR and 2zR, with w(z), R(z) and the Gouy phase 3·atan(z/zR)
-    // for HG_21. HG_21 is not symmetric under x ↔ y or sign flips, so an
+    // HG_mn at z = zR and 2zR, with w(z), R(z) and the Gouy phase
+    // (N+1)·atan(z/zR) = 4·atan(z/zR) for HG_21. HG_21 is not symmetric under x ↔ y or sign flips, so an
     // axis swap or a mirrored coordinate would fail.
     // Grid: 64², dx = w0/6 = 10 µm, edge at ±5.3 w0 (field there ~1e-12).
     // The integrand U1·exp(iπ(x−x1)²/(λz)) has local frequency
