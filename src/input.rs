@@ -23,21 +23,22 @@
 use std::path::Path;
 
 use ndarray::Array2;
-use num_complex::Complex64;
+use ndarray_npy::{ReadNpyError, ReadNpyExt, ReadableElement};
+use num_complex::{Complex32, Complex64};
 
 use crate::error::{Error, Result};
-use crate::report::npy::{parse_npy, NpyArray};
 
 /// Reads a 2-D complex array from an NPY file.
 ///
 /// Accepts complex128 and complex64, and also float64 and float32 (taken as
-/// real values with zero imaginary part). The array is returned as stored,
-/// `[iy, ix]`, row 0 = most negative y.
+/// real values with zero imaginary part), either byte order, C or Fortran
+/// order. The array is returned as stored, `[iy, ix]`, row 0 = most negative
+/// y (Fortran-ordered files are rearranged to C order, same indices).
 ///
 /// # Errors
 /// [`Error::Io`] if the file cannot be read; [`Error::File`] if it is not an
-/// NPY file, has another dtype, or is not 2-D; [`Error::NonFinite`] if any
-/// value is NaN or infinite.
+/// NPY file, has another dtype, is not 2-D, is empty or is truncated;
+/// [`Error::NonFinite`] if any value is NaN or infinite.
 ///
 /// ```
 /// use beamwright::input::read_complex_npy;
@@ -45,10 +46,33 @@ use crate::report::npy::{parse_npy, NpyArray};
 /// assert!(err.to_string().starts_with("no/such/file.npy: "));
 /// ```
 pub fn read_complex_npy(path: &Path) -> Result<Array2<Complex64>> {
-    let array = match parse_npy(path, &read_bytes(path)?)? {
-        NpyArray::Complex(a, _) => a,
-        NpyArray::Real(a, _) => a.mapv(|v| Complex64::new(v, 0.0)),
-    };
+    let bytes = read_bytes(path)?;
+    let array = read_npy_as::<Complex64>(&bytes)
+        .or_else(|e| {
+            on_wrong_dtype(e, || {
+                read_npy_as::<Complex32>(&bytes)
+                    .map(|a| a.mapv(|v| Complex64::new(v.re.into(), v.im.into())))
+            })
+        })
+        .or_else(|e| {
+            on_wrong_dtype(e, || {
+                read_npy_as::<f64>(&bytes).map(|a| a.mapv(|v| Complex64::new(v, 0.0)))
+            })
+        })
+        .or_else(|e| {
+            on_wrong_dtype(e, || {
+                read_npy_as::<f32>(&bytes).map(|a| a.mapv(|v| Complex64::new(v.into(), 0.0)))
+            })
+        })
+        .map_err(|e| {
+            npy_error(
+                path,
+                &bytes,
+                e,
+                "expected complex128, complex64, float64 or float32",
+            )
+        })?;
+    check_not_empty(path, array.dim())?;
     let bad = array
         .iter()
         .filter(|v| !(v.re.is_finite() && v.im.is_finite()))
@@ -58,27 +82,112 @@ pub fn read_complex_npy(path: &Path) -> Result<Array2<Complex64>> {
 }
 
 /// Reads a 2-D real array from an NPY file (float64, or float32 widened to
-/// f64). The array is returned as stored, `[iy, ix]`, row 0 = most negative y.
+/// f64; either byte order, C or Fortran order). The array is returned as
+/// stored, `[iy, ix]`, row 0 = most negative y.
 ///
 /// # Errors
 /// [`Error::Io`] if the file cannot be read; [`Error::File`] if it is not an
-/// NPY file, is complex or of another dtype, or is not 2-D;
-/// [`Error::NonFinite`] if any value is NaN or infinite.
+/// NPY file, is complex or of another dtype, is not 2-D, is empty or is
+/// truncated; [`Error::NonFinite`] if any value is NaN or infinite.
 pub fn read_real_npy(path: &Path) -> Result<Array2<f64>> {
-    let array = match parse_npy(path, &read_bytes(path)?)? {
-        NpyArray::Real(a, _) => a,
-        NpyArray::Complex(_, dtype) => {
-            return Err(Error::File {
-                path: path.to_path_buf(),
-                message: format!(
-                    "dtype {} is complex: expected a real array (float64 or float32)",
-                    dtype.name()
-                ),
-            })
-        }
-    };
+    let bytes = read_bytes(path)?;
+    let array = read_npy_as::<f64>(&bytes)
+        .or_else(|e| on_wrong_dtype(e, || read_npy_as::<f32>(&bytes).map(|a| a.mapv(f64::from))))
+        .map_err(|e| {
+            if let ReadNpyError::WrongDescriptor(descr) = &e {
+                if let Some(name) = complex_dtype_name(&descr.to_string()) {
+                    return Error::File {
+                        path: path.to_path_buf(),
+                        message: format!(
+                            "dtype {name} is complex: expected a real array (float64 or float32)"
+                        ),
+                    };
+                }
+            }
+            npy_error(path, &bytes, e, "expected float64 or float32")
+        })?;
+    check_not_empty(path, array.dim())?;
     check_finite(path, array.iter().filter(|v| !v.is_finite()).count())?;
     Ok(array)
+}
+
+/// Parses the bytes of an NPY file as a 2-D array of `A` with `ndarray-npy`.
+fn read_npy_as<A: ReadableElement>(bytes: &[u8]) -> std::result::Result<Array2<A>, ReadNpyError> {
+    Array2::<A>::read_npy(bytes)
+}
+
+/// Runs the next attempt if the file's dtype was not the one tried;
+/// passes any other error through.
+fn on_wrong_dtype<T>(
+    err: ReadNpyError,
+    next: impl FnOnce() -> std::result::Result<T, ReadNpyError>,
+) -> std::result::Result<T, ReadNpyError> {
+    match err {
+        ReadNpyError::WrongDescriptor(_) => next(),
+        other => Err(other),
+    }
+}
+
+/// NumPy's name for a complex descriptor as printed by `ndarray-npy`
+/// (`'<c16'` → `complex128`), or `None` for other descriptors.
+fn complex_dtype_name(descr: &str) -> Option<&'static str> {
+    let code = descr
+        .trim_matches('\'')
+        .trim_start_matches(['<', '>', '=', '|']);
+    match code {
+        "c16" => Some("complex128"),
+        "c8" => Some("complex64"),
+        _ => None,
+    }
+}
+
+/// Turns an `ndarray-npy` read error into a message for the user, naming
+/// the file. `expected` lists the accepted dtypes.
+fn npy_error(path: &Path, bytes: &[u8], err: ReadNpyError, expected: &str) -> Error {
+    let message = if !bytes.starts_with(b"\x93NUMPY") {
+        "not a NumPy .npy file (it does not start with the NPY magic bytes \\x93NUMPY; \
+         save arrays with numpy.save)"
+            .to_string()
+    } else {
+        match err {
+            // Reading from memory, an I/O error can only be the header
+            // running past the end of the file (the data have their own
+            // variant, `MissingData`).
+            ReadNpyError::Io(_) => "truncated file: it ends inside the NPY header".to_string(),
+            ReadNpyError::ParseHeader(e) => format!("malformed or unsupported NPY header: {e}"),
+            ReadNpyError::ParseData(e) => format!("cannot decode the array data: {e}"),
+            ReadNpyError::LengthOverflow => "the shape in the NPY header is too large".to_string(),
+            ReadNpyError::WrongNdim(_, ndim) => {
+                format!("expected a 2-D array (rows = y, columns = x), found {ndim}-D")
+            }
+            ReadNpyError::WrongDescriptor(descr) => {
+                format!("unsupported dtype {descr} ({expected})")
+            }
+            ReadNpyError::MissingData => format!(
+                "truncated file: {} bytes in all, fewer than the shape and dtype in the NPY \
+                 header require",
+                bytes.len()
+            ),
+            ReadNpyError::ExtraBytes(n) => {
+                format!("{n} bytes follow the array data (the NPY header does not match the data)")
+            }
+        }
+    };
+    Error::File {
+        path: path.to_path_buf(),
+        message,
+    }
+}
+
+fn check_not_empty(path: &Path, (rows, cols): (usize, usize)) -> Result<()> {
+    if rows == 0 || cols == 0 {
+        Err(Error::File {
+            path: path.to_path_buf(),
+            message: format!("array is empty (shape ({rows}, {cols}))"),
+        })
+    } else {
+        Ok(())
+    }
 }
 
 /// Reads a PNG image as grey levels in `[0, 1]`, flipped so that the array
@@ -164,6 +273,7 @@ mod tests {
     use super::*;
     use crate::report::npy::{write_complex_npy, write_real_npy};
     use ndarray::array;
+    use ndarray_npy::write_npy;
 
     #[test]
     fn npy_round_trips_and_real_is_accepted_as_complex() {
@@ -232,7 +342,132 @@ mod tests {
             "{err}"
         );
         let err = read_complex_npy(&text).unwrap_err();
-        assert!(err.to_string().contains("not an NPY file"), "{err}");
+        assert!(matches!(err, Error::File { .. }), "{err:?}");
+        assert!(
+            err.to_string()
+                .starts_with(&format!("{}: not a NumPy .npy file", text.display())),
+            "{err}"
+        );
+    }
+
+    #[test]
+    fn narrower_dtypes_are_widened() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("a.npy");
+        let c32 = array![[Complex32::new(0.5, -1.25), Complex32::new(3.0, 1e-3)]];
+        write_npy(&path, &c32).unwrap();
+        let expected = c32.mapv(|v| Complex64::new(v.re.into(), v.im.into()));
+        assert_eq!(read_complex_npy(&path).unwrap(), expected);
+        let err = read_real_npy(&path).unwrap_err();
+        assert_eq!(
+            err.to_string(),
+            format!(
+                "{}: dtype complex64 is complex: expected a real array (float64 or float32)",
+                path.display()
+            )
+        );
+
+        let f32s = array![[1.5f32, -2.0], [0.1, 4.0]];
+        write_npy(&path, &f32s).unwrap();
+        assert_eq!(read_real_npy(&path).unwrap(), f32s.mapv(f64::from));
+        assert_eq!(
+            read_complex_npy(&path).unwrap(),
+            f32s.mapv(|v| Complex64::new(v.into(), 0.0))
+        );
+    }
+
+    /// An NPY version 2.0 file with the given header dict and data bytes.
+    fn npy_v2(dict: &str, data: &[u8]) -> Vec<u8> {
+        let mut bytes = b"\x93NUMPY\x02\x00".to_vec();
+        bytes.extend_from_slice(&(dict.len() as u32).to_le_bytes());
+        bytes.extend_from_slice(dict.as_bytes());
+        bytes.extend_from_slice(data);
+        bytes
+    }
+
+    #[test]
+    fn reads_big_endian_fortran_order_and_version_2() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("be.npy");
+        // A 2x3 float32 array [[1,2,3],[4,5,6]] stored big-endian in Fortran
+        // order (columns first) with a version 2.0 header.
+        let dict = "{'descr': '>f4', 'fortran_order': True, 'shape': (2, 3), }\n";
+        let data: Vec<u8> = [1.0f32, 4.0, 2.0, 5.0, 3.0, 6.0]
+            .iter()
+            .flat_map(|v| v.to_be_bytes())
+            .collect();
+        std::fs::write(&path, npy_v2(dict, &data)).unwrap();
+        let expected = array![[1.0, 2.0, 3.0], [4.0, 5.0, 6.0]];
+        assert_eq!(read_real_npy(&path).unwrap(), expected);
+
+        // The same for big-endian complex128 [[1+2i, 3+4i]] in Fortran order.
+        let dict = "{'descr': '>c16', 'fortran_order': True, 'shape': (1, 2), }\n";
+        let data: Vec<u8> = [1.0f64, 2.0, 3.0, 4.0]
+            .iter()
+            .flat_map(|v| v.to_be_bytes())
+            .collect();
+        std::fs::write(&path, npy_v2(dict, &data)).unwrap();
+        assert_eq!(
+            read_complex_npy(&path).unwrap(),
+            array![[Complex64::new(1.0, 2.0), Complex64::new(3.0, 4.0)]]
+        );
+    }
+
+    #[test]
+    fn rejects_bad_files_with_clear_messages() {
+        let dir = tempfile::tempdir().unwrap();
+        let path = dir.path().join("bad.npy");
+        let shown = path.display().to_string();
+        let message = |err: Error| {
+            assert!(matches!(err, Error::File { .. }), "{err:?}");
+            let text = err.to_string();
+            text.strip_prefix(&format!("{shown}: "))
+                .unwrap_or_else(|| panic!("message does not name the file: {text}"))
+                .to_string()
+        };
+
+        write_npy(&path, &array![[1i32, 2], [3, 4]]).unwrap();
+        assert_eq!(
+            message(read_complex_npy(&path).unwrap_err()),
+            "unsupported dtype '<i4' (expected complex128, complex64, float64 or float32)"
+        );
+        assert_eq!(
+            message(read_real_npy(&path).unwrap_err()),
+            "unsupported dtype '<i4' (expected float64 or float32)"
+        );
+
+        write_npy(&path, &ndarray::Array3::<f64>::zeros((2, 2, 2))).unwrap();
+        let expected = "expected a 2-D array (rows = y, columns = x), found 3-D";
+        assert_eq!(message(read_complex_npy(&path).unwrap_err()), expected);
+        assert_eq!(message(read_real_npy(&path).unwrap_err()), expected);
+
+        write_real_npy(&path, &Array2::zeros((4, 4))).unwrap();
+        let full = std::fs::read(&path).unwrap();
+        std::fs::write(&path, &full[..full.len() - 28]).unwrap();
+        let m = message(read_real_npy(&path).unwrap_err());
+        assert!(m.starts_with("truncated file:"), "{m}");
+        assert!(message(read_complex_npy(&path).unwrap_err()).starts_with("truncated file:"));
+        std::fs::write(&path, &full[..40]).unwrap();
+        assert_eq!(
+            message(read_real_npy(&path).unwrap_err()),
+            "truncated file: it ends inside the NPY header"
+        );
+        std::fs::write(&path, [&full[..], &[0u8; 8]].concat()).unwrap();
+        let m = message(read_real_npy(&path).unwrap_err());
+        assert!(m.starts_with("8 bytes follow the array data"), "{m}");
+
+        write_real_npy(&path, &Array2::zeros((0, 4))).unwrap();
+        assert_eq!(
+            message(read_real_npy(&path).unwrap_err()),
+            "array is empty (shape (0, 4))"
+        );
+
+        let dict = "{'descr': '<f8', 'fortran_order': False, 'shape': (1, 1), }\n";
+        let mut bytes = npy_v2(dict, &[0; 8]);
+        bytes[6] = 9; // format version 9.0 does not exist
+        std::fs::write(&path, bytes).unwrap();
+        let m = message(read_real_npy(&path).unwrap_err());
+        assert!(m.starts_with("malformed or unsupported NPY header"), "{m}");
     }
 
     #[test]
