@@ -119,7 +119,8 @@ fn total<T: Irradiance>(values: &Array2<T>) -> f64 {
 /// let w = 0.3e-3;
 /// let f = Mode::new(ModeShape::HermiteGauss { m: 0, n: 0 }, 1064e-9, w).unwrap().sample(grid, 0.0, 1.0).unwrap();
 /// let ee = encircled_energy(&f, [0.0, 0.0], w);
-/// assert!((ee - (1.0 - (-2.0f64).exp())).abs() < 1e-4);
+/// // Midpoint-rule error (dx/w)²·(2/3)·e^(−2) = 1.0e-4 at 30 samples per w.
+/// assert!((ee - (1.0 - (-2.0f64).exp())).abs() < 2e-4);
 /// ```
 pub fn encircled_energy(field: &Field, centre_m: [f64; 2], radius_m: f64) -> f64 {
     let p = sum_norm_sqr(&field.values);
