@@ -109,9 +109,11 @@ fn caustic_41(c: &mut Criterion) {
     };
     for threads in [1usize, 2] {
         let pool = pool(threads);
-        group.bench_with_input(BenchmarkId::new(format!("{threads}t"), 1024), &1024, |b, _| {
-            pool.install(|| b.iter(|| caustic(&field, &options).expect("caustic")))
-        });
+        group.bench_with_input(
+            BenchmarkId::new(format!("{threads}t"), 1024),
+            &1024,
+            |b, _| pool.install(|| b.iter(|| caustic(&field, &options).expect("caustic"))),
+        );
     }
     group.finish();
 }
@@ -141,5 +143,12 @@ fn examples_end_to_end(c: &mut Criterion) {
     group.finish();
 }
 
-criterion_group!(benches, fft2, asm_step, fresnel_step, caustic_41, examples_end_to_end);
+criterion_group!(
+    benches,
+    fft2,
+    asm_step,
+    fresnel_step,
+    caustic_41,
+    examples_end_to_end
+);
 criterion_main!(benches);

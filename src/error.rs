@@ -48,7 +48,9 @@ pub enum Error {
         right_spacing_m: f64,
     },
     /// An input array or image has the wrong shape.
-    #[error("{what} is {got_rows}x{got_cols}, expected {expected_rows}x{expected_cols} (the grid size)")]
+    #[error(
+        "{what} is {got_rows}x{got_cols}, expected {expected_rows}x{expected_cols} (the grid size)"
+    )]
     Shape {
         /// What the array is.
         what: String,

@@ -18,7 +18,8 @@ pub struct Example {
 pub const ALL: &[Example] = &[
     Example {
         name: "expander-clipping",
-        summary: "3x beam expander whose output lens clips the beam: power lost and downstream rings",
+        summary:
+            "3x beam expander whose output lens clips the beam: power lost and downstream rings",
         layout: include_str!("../examples/layouts/expander-clipping.toml"),
     },
     Example {
@@ -33,7 +34,8 @@ pub const ALL: &[Example] = &[
     },
     Example {
         name: "relay-degraded",
-        summary: "the same relay with an aberrated, undersized second lens; --strict fails and says why",
+        summary:
+            "the same relay with an aberrated, undersized second lens; --strict fails and says why",
         layout: include_str!("../examples/layouts/relay-degraded.toml"),
     },
 ];

@@ -359,7 +359,10 @@ mod tests {
             a[[n / 2, n / 2]] = Complex64::new(1.0, 0.0);
             forward_centred(&mut a);
             for v in a.iter() {
-                assert!((v - Complex64::new(1.0, 0.0)).norm() < 1e-12, "n = {n}: {v}");
+                assert!(
+                    (v - Complex64::new(1.0, 0.0)).norm() < 1e-12,
+                    "n = {n}: {v}"
+                );
             }
             // A plane wave at one frequency bin lands at centre + 1.
             let mut b = Array2::from_shape_fn((n, n), |(_, ix)| {

@@ -190,10 +190,7 @@ impl Field {
         }
         let grid = self.grid.with_n(n)?;
         let off = old / 2 - n / 2;
-        let values = self
-            .values
-            .slice(s![off..off + n, off..off + n])
-            .to_owned();
+        let values = self.values.slice(s![off..off + n, off..off + n]).to_owned();
         let kept = Field {
             grid,
             wavelength_m: self.wavelength_m,

@@ -116,7 +116,10 @@ mod tests {
     #[test]
     fn axis_and_frequencies() {
         let g = Grid::new(8, 1.0).unwrap();
-        assert_eq!(g.coords_m(), vec![-4.0, -3.0, -2.0, -1.0, 0.0, 1.0, 2.0, 3.0]);
+        assert_eq!(
+            g.coords_m(),
+            vec![-4.0, -3.0, -2.0, -1.0, 0.0, 1.0, 2.0, 3.0]
+        );
         let f: Vec<f64> = g.freqs_per_m().iter().map(|f| f * 8.0).collect();
         assert_eq!(f, vec![0.0, 1.0, 2.0, 3.0, -4.0, -3.0, -2.0, -1.0]);
         let g = Grid::new(5, 1.0).unwrap();

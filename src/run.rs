@@ -151,7 +151,9 @@ pub fn second_moment_radius(d4sigma_m: [f64; 2]) -> f64 {
 /// As [`crate::layout::Source::field`] (the source is sampled to measure it).
 pub fn plan_warnings(plan: &Plan) -> Result<Vec<String>> {
     check_memory(plan)?;
-    let source = plan.source.field(plan.grid, plan.wavelength_m, plan.power_w)?;
+    let source = plan
+        .source
+        .field(plan.grid, plan.wavelength_m, plan.power_w)?;
     let trace = paraxial::trace(plan);
     let factor = source_width_factor(plan, &source);
     let mut warnings = plan.warnings.clone();
@@ -162,7 +164,9 @@ pub fn plan_warnings(plan: &Plan) -> Result<Vec<String>> {
 /// Power in the outer `BORDER_FRACTION` of the grid, watts.
 pub fn border_power_w(field: &Field) -> f64 {
     let n = field.grid().n();
-    let b = ((n as f64 * BORDER_FRACTION).ceil() as usize).max(1).min(n / 2);
+    let b = ((n as f64 * BORDER_FRACTION).ceil() as usize)
+        .max(1)
+        .min(n / 2);
     let v = &field.values;
     let total = crate::field::sum_norm_sqr(v);
     let inner = v.slice(s![b..n - b, b..n - b]);
@@ -254,7 +258,9 @@ fn execute(
     mut on_step: impl FnMut(&Step, &Transmission, Vec<String>, &Field) -> Result<()>,
     mut at_probe: impl FnMut(&Step, &ProbeSpec, &Field) -> Result<()>,
 ) -> Result<()> {
-    let mut field = plan.source.field(plan.grid, plan.wavelength_m, plan.power_w)?;
+    let mut field = plan
+        .source
+        .field(plan.grid, plan.wavelength_m, plan.power_w)?;
     for (i, step) in plan.steps.iter().enumerate() {
         let next_merged = plan.steps.get(i + 1).and_then(|s| match s.op {
             Operation::Space { merged_lens_m, .. } => merged_lens_m,
@@ -277,7 +283,9 @@ fn execute(
 /// cannot be written) and [`Error::TooLarge`] before allocating.
 pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
     let warnings = plan_warnings(plan)?;
-    let source = plan.source.field(plan.grid, plan.wavelength_m, plan.power_w)?;
+    let source = plan
+        .source
+        .field(plan.grid, plan.wavelength_m, plan.power_w)?;
     let width_factor = source_width_factor(plan, &source);
     drop(source);
     let trace = paraxial::trace(plan);
@@ -354,7 +362,15 @@ pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
         },
         |step, spec, field| {
             let point = trace.as_ref().map(|(_, pts)| pts[step.index]);
-            let mut record = measure_probe(plan, step, spec, field, point, width_factor, options.out_dir)?;
+            let mut record = measure_probe(
+                plan,
+                step,
+                spec,
+                field,
+                point,
+                width_factor,
+                options.out_dir,
+            )?;
             if spec.strehl {
                 let (peak, _) = measure::peak(&field.irradiance(), field.grid());
                 record.strehl = reference_peaks
@@ -491,10 +507,7 @@ fn measure_probe(
             let record = CausticRecord {
                 m2: [c.fit[0].m2, c.fit[1].m2],
                 waist_d4sigma_m: [c.fit[0].waist_d4sigma_m, c.fit[1].waist_d4sigma_m],
-                waist_z_m: [
-                    step.z_m + c.fit[0].waist_z_m,
-                    step.z_m + c.fit[1].waist_z_m,
-                ],
+                waist_z_m: [step.z_m + c.fit[0].waist_z_m, step.z_m + c.fit[1].waist_z_m],
                 rayleigh_m: [c.fit[0].rayleigh_m, c.fit[1].rayleigh_m],
                 divergence_rad: [c.fit[0].divergence_rad, c.fit[1].divergence_rad],
                 residual_rms_m: [c.fit[0].residual_rms_m, c.fit[1].residual_rms_m],
@@ -520,7 +533,12 @@ fn measure_probe(
         None => None,
     };
     if let Some(dir) = out_dir {
-        let title = format!("{} — {} at z = {}", plan.title, spec.name, fmt_len(step.z_m));
+        let title = format!(
+            "{} — {} at z = {}",
+            plan.title,
+            spec.name,
+            fmt_len(step.z_m)
+        );
         if spec.save_intensity {
             let name = format!("{}_intensity.png", spec.name);
             crate::report::png::write_intensity_png(&dir.join(&name), field, &title)?;
@@ -541,7 +559,12 @@ fn measure_probe(
             // One-pixel annuli, shown out to 1.5 principal D4σ diameters.
             let shown = (iso.principal_d4sigma_m[0] * 1.5).min(grid.width_m() / 2.0);
             let (r, i) = measure::radial_profile(&irradiance, grid, iso.centroid_m, grid.n());
-            let keep = r.iter().take_while(|&&r| r <= shown).count().max(2).min(r.len());
+            let keep = r
+                .iter()
+                .take_while(|&&r| r <= shown)
+                .count()
+                .max(2)
+                .min(r.len());
             // For a Gaussian source, the paraxial Gaussian with this probe's
             // power is drawn for comparison.
             let reference: Option<Vec<f64>> = match (&paraxial, plan.source.m2()) {
@@ -603,7 +626,11 @@ fn caustic_fit_in_absolute_z(c: &measure::Caustic, z0: f64) -> [(f64, f64, f64);
         let theta = f.divergence_rad;
         let zw = z0 + f.waist_z_m;
         let d0 = f.waist_d4sigma_m;
-        (d0 * d0 + theta * theta * zw * zw, -2.0 * theta * theta * zw, theta * theta)
+        (
+            d0 * d0 + theta * theta * zw * zw,
+            -2.0 * theta * theta * zw,
+            theta * theta,
+        )
     };
     [shift(&c.fit[0]), shift(&c.fit[1])]
 }

@@ -103,6 +103,13 @@ fn parse_with(
         text: text.to_string(),
         expected,
     };
+    let lower = text
+        .trim()
+        .trim_start_matches(['-', '+'])
+        .to_ascii_lowercase();
+    if lower.starts_with("nan") || lower.starts_with("inf") {
+        return Err(err(format!("the number must be finite; {expected}")));
+    }
     let (value, unit) = split_number(text).ok_or_else(|| err(expected.to_string()))?;
     if !value.is_finite() {
         return Err(err(format!("the number must be finite; {expected}")));
@@ -266,8 +273,22 @@ mod tests {
             let e = Length::parse(bad).unwrap_err().to_string();
             assert!(e.contains("expected a number and one of m"), "{bad}: {e}");
         }
-        assert!(Length::parse("2.5").unwrap_err().to_string().contains("missing unit"));
-        assert!(Power::parse("2 mm").unwrap_err().to_string().contains("W, kW, mW"));
+        assert!(Length::parse("2.5")
+            .unwrap_err()
+            .to_string()
+            .contains("missing unit"));
+        assert!(Length::parse("NaN mm")
+            .unwrap_err()
+            .to_string()
+            .contains("finite"));
+        assert!(Length::parse("-inf m")
+            .unwrap_err()
+            .to_string()
+            .contains("finite"));
+        assert!(Power::parse("2 mm")
+            .unwrap_err()
+            .to_string()
+            .contains("W, kW, mW"));
     }
 
     #[test]
@@ -280,7 +301,10 @@ mod tests {
             0.5f64.to_radians()
         );
         assert_eq!(Wavefront::parse("0.1 wave").unwrap(), Wavefront::Waves(0.1));
-        assert_eq!(Wavefront::parse("-0.2 waves").unwrap(), Wavefront::Waves(-0.2));
+        assert_eq!(
+            Wavefront::parse("-0.2 waves").unwrap(),
+            Wavefront::Waves(-0.2)
+        );
         assert_relative_eq!(
             Wavefront::parse("-30 nm").unwrap().as_m(1e-6),
             -30e-9,

@@ -161,7 +161,11 @@ mod tests {
         let zr = b.rayleigh_m();
         assert_relative_eq!(b.radius_at(zr), 2f64.sqrt() * 1e-3, max_relative = 1e-14);
         assert_relative_eq!(b.radius_of_curvature_at(zr), 2.0 * zr, max_relative = 1e-14);
-        assert_relative_eq!(b.gouy_at(zr), std::f64::consts::FRAC_PI_4, max_relative = 1e-14);
+        assert_relative_eq!(
+            b.gouy_at(zr),
+            std::f64::consts::FRAC_PI_4,
+            max_relative = 1e-14
+        );
     }
 
     #[test]
@@ -174,6 +178,10 @@ mod tests {
         let (focus, z_from_waist) = GaussianBeam::from_q(1064e-9, q).unwrap();
         assert_relative_eq!(focus.waist_m(), 33.8488e-6, max_relative = 3e-6);
         assert_relative_eq!(-z_from_waist, 99.88543e-3, max_relative = 1e-7);
-        assert_relative_eq!(radius_from_q(b.q_at(0.3), 1064e-9), b.radius_at(0.3), max_relative = 1e-12);
+        assert_relative_eq!(
+            radius_from_q(b.q_at(0.3), 1064e-9),
+            b.radius_at(0.3),
+            max_relative = 1e-12
+        );
     }
 }

@@ -17,8 +17,8 @@ pub fn hermite_function(m: usize, t: f64) -> f64 {
     let mut prev = 0.0;
     let mut cur = (-t * t / 2.0).exp() / std::f64::consts::PI.powf(0.25);
     for k in 0..m {
-        let next = (2.0 / (k as f64 + 1.0)).sqrt() * t * cur
-            - (k as f64 / (k as f64 + 1.0)).sqrt() * prev;
+        let next =
+            (2.0 / (k as f64 + 1.0)).sqrt() * t * cur - (k as f64 / (k as f64 + 1.0)).sqrt() * prev;
         prev = cur;
         cur = next;
     }
@@ -32,9 +32,8 @@ mod tests {
     #[test]
     fn matches_explicit_polynomials() {
         // H2 = 4t² − 2, H3 = 8t³ − 12t (Abramowitz & Stegun 22.3, from memory).
-        let norm = |m: i32, fact: f64| {
-            1.0 / (2f64.powi(m) * fact * std::f64::consts::PI.sqrt()).sqrt()
-        };
+        let norm =
+            |m: i32, fact: f64| 1.0 / (2f64.powi(m) * fact * std::f64::consts::PI.sqrt()).sqrt();
         for t in [-2.0, -0.3, 0.0, 0.9, 3.1f64] {
             let g = (-t * t / 2.0).exp();
             let h2 = (4.0 * t * t - 2.0) * g * norm(2, 2.0);
@@ -52,7 +51,11 @@ mod tests {
         let ts: Vec<f64> = (-1500..=1500).map(|i| i as f64 * dt).collect();
         for m in [0usize, 1, 5, 12] {
             for k in [0usize, 1, 5, 12] {
-                let s: f64 = ts.iter().map(|&t| hermite_function(m, t) * hermite_function(k, t)).sum::<f64>() * dt;
+                let s: f64 = ts
+                    .iter()
+                    .map(|&t| hermite_function(m, t) * hermite_function(k, t))
+                    .sum::<f64>()
+                    * dt;
                 let expected = if m == k { 1.0 } else { 0.0 };
                 assert!((s - expected).abs() < 1e-10, "m={m} k={k}: {s}");
             }

@@ -51,7 +51,10 @@ mod tests {
                 let l2 = (af + 1.0) * (af + 2.0) / 2.0 - (af + 2.0) * t + t * t / 2.0;
                 let fact = (1..=a + 2).map(|k| k as f64).product::<f64>();
                 let expected = (2.0 / fact).sqrt() * t.powf(af / 2.0) * l2 * (-t / 2.0).exp();
-                assert!((laguerre_radial(2, a, t) - expected).abs() < 1e-14, "a={a} t={t}");
+                assert!(
+                    (laguerre_radial(2, a, t) - expected).abs() < 1e-14,
+                    "a={a} t={t}"
+                );
             }
         }
     }

@@ -156,7 +156,11 @@ mod tests {
         for z in [0.0, mode.beam.rayleigh_m()] {
             let w = mode.beam.radius_at(z);
             let i0 = mode.value_at(0.0, 0.0, z).norm_sqr();
-            assert_relative_eq!(i0, 2.0 / (std::f64::consts::PI * w * w), max_relative = 1e-14);
+            assert_relative_eq!(
+                i0,
+                2.0 / (std::f64::consts::PI * w * w),
+                max_relative = 1e-14
+            );
         }
         // The on-axis phase is −ψ: at z = zR that is −π/4.
         let v = mode.value_at(0.0, 0.0, mode.beam.rayleigh_m());

@@ -13,7 +13,7 @@ use num_complex::Complex64;
 use toml::Spanned;
 
 use super::plan::{ModesSpec, Operation, Plan, ProbeSpec, Source, Step};
-use super::schema::{ElementEntry, LayoutFile, Q, SourceSection, TermEntry};
+use super::schema::{ElementEntry, LayoutFile, SourceSection, TermEntry, Q};
 use crate::beams::{GaussianBeam, Mode, ModeShape, Superposition};
 use crate::error::{Error, Result};
 use crate::grid::Grid;
@@ -78,7 +78,14 @@ pub fn parse(text: &str, path: &Path) -> Result<Plan> {
         Error::Layout {
             path: path.to_path_buf(),
             line,
-            message: e.message().trim().to_string(),
+            // toml's messages may span lines; keep errors to one line.
+            message: e
+                .message()
+                .lines()
+                .map(str::trim)
+                .filter(|l| !l.is_empty())
+                .collect::<Vec<_>>()
+                .join("; "),
         }
     })?;
     ctx.plan(file)
@@ -123,10 +130,7 @@ impl Ctx<'_> {
         } else {
             Err(self.err(
                 Some(self.line_of(q.span().start)),
-                format!(
-                    "{key}: '{}' must be a positive length",
-                    q.get_ref().0
-                ),
+                format!("{key}: '{}' must be a positive length", q.get_ref().0),
             ))
         }
     }
@@ -143,7 +147,7 @@ impl Ctx<'_> {
                 let p = Power::parse(&q.get_ref().0)
                     .map(Power::as_w)
                     .map_err(|e| self.wrap("beam.power", q, e))?;
-                if !(p > 0.0) {
+                if p <= 0.0 {
                     return Err(self.wrap(
                         "beam.power",
                         q,
@@ -174,7 +178,10 @@ impl Ctx<'_> {
                 if probe_names.contains(&p.name) {
                     return Err(self.err(
                         line,
-                        format!("element[{index}].name: probe name '{}' is used twice", p.name),
+                        format!(
+                            "element[{index}].name: probe name '{}' is used twice",
+                            p.name
+                        ),
                     ));
                 }
                 probe_names.push(p.name.clone());
@@ -241,7 +248,12 @@ impl Ctx<'_> {
         Grid::new(n, spacing).map_err(|e| self.err(n_line, format!("grid: {e}")))
     }
 
-    fn source(&self, spanned: &Spanned<SourceSection>, grid: Grid, wavelength_m: f64) -> Result<Source> {
+    fn source(
+        &self,
+        spanned: &Spanned<SourceSection>,
+        grid: Grid,
+        wavelength_m: f64,
+    ) -> Result<Source> {
         let s = spanned.get_ref();
         let line = Some(self.line_of(spanned.span().start));
         let kind = s.kind.get_ref().as_str();
@@ -288,7 +300,10 @@ impl Ctx<'_> {
             }
         }
         let waist_and_position = || -> Result<(f64, f64)> {
-            let w = self.positive_length("source.waist", self.required("source.waist", line, &s.waist)?)?;
+            let w = self.positive_length(
+                "source.waist",
+                self.required("source.waist", line, &s.waist)?,
+            )?;
             let at = match &s.waist_at {
                 Some(q) => self.length("source.waist_at", q)?,
                 None => 0.0,
@@ -296,19 +311,31 @@ impl Ctx<'_> {
             Ok((w, at))
         };
         let index = |key: &str, v: Option<i64>, signed: bool| -> Result<i64> {
-            let v = v.ok_or_else(|| self.err(line, format!("source.{key}: missing (required for a {kind} source)")))?;
+            let v = v.ok_or_else(|| {
+                self.err(
+                    line,
+                    format!("source.{key}: missing (required for a {kind} source)"),
+                )
+            })?;
             if (!signed && v < 0) || v.abs() > 60 {
                 return Err(self.err(
                     line,
-                    format!("source.{key}: {v} is out of range (expected {} to 60)", if signed { "-60" } else { "0" }),
+                    format!(
+                        "source.{key}: {v} is out of range (expected {} to 60)",
+                        if signed { "-60" } else { "0" }
+                    ),
                 ));
             }
             Ok(v)
         };
         let mode = |shape: ModeShape| -> Result<Source> {
             let (w, at) = waist_and_position()?;
-            let mode = Mode::new(shape, wavelength_m, w).map_err(|e| self.err(line, format!("source: {e}")))?;
-            Ok(Source::Mode { mode, waist_at_m: at })
+            let mode = Mode::new(shape, wavelength_m, w)
+                .map_err(|e| self.err(line, format!("source: {e}")))?;
+            Ok(Source::Mode {
+                mode,
+                waist_at_m: at,
+            })
         };
         match kind {
             "gaussian" => mode(ModeShape::HermiteGauss { m: 0, n: 0 }),
@@ -321,7 +348,10 @@ impl Ctx<'_> {
                 l: index("l", s.l, true)? as i32,
             }),
             "flat-top" => Ok(Source::FlatTop {
-                radius_m: self.positive_length("source.radius", self.required("source.radius", line, &s.radius)?)?,
+                radius_m: self.positive_length(
+                    "source.radius",
+                    self.required("source.radius", line, &s.radius)?,
+                )?,
             }),
             "superposition" => {
                 let (w, at) = waist_and_position()?;
@@ -336,7 +366,8 @@ impl Ctx<'_> {
                     .collect::<Result<Vec<_>>>()?;
                 Ok(Source::Superposition {
                     modes: Superposition { terms: modes },
-                    beam: GaussianBeam::new(wavelength_m, w).map_err(|e| self.err(line, format!("source: {e}")))?,
+                    beam: GaussianBeam::new(wavelength_m, w)
+                        .map_err(|e| self.err(line, format!("source: {e}")))?,
                     waist_at_m: at,
                 })
             }
@@ -347,7 +378,8 @@ impl Ctx<'_> {
                 let values = if kind == "npy" {
                     crate::input::read_complex_npy(&path)
                 } else {
-                    crate::input::read_png_gray(&path).map(|a| a.mapv(|v| Complex64::new(v.max(0.0).sqrt(), 0.0)))
+                    crate::input::read_png_gray(&path)
+                        .map(|a| a.mapv(|v| Complex64::new(v.max(0.0).sqrt(), 0.0)))
                 }
                 .map_err(|e| self.err(fline, format!("source.file: {e}")))?;
                 self.check_size("source.file", fline, &path, &values, grid)?;
@@ -360,10 +392,22 @@ impl Ctx<'_> {
         }
     }
 
-    fn term(&self, i: usize, t: &TermEntry, line: Option<usize>, wavelength_m: f64, waist_m: f64) -> Result<(Mode, Complex64)> {
+    fn term(
+        &self,
+        i: usize,
+        t: &TermEntry,
+        line: Option<usize>,
+        wavelength_m: f64,
+        waist_m: f64,
+    ) -> Result<(Mode, Complex64)> {
         let key = format!("source.terms[{i}]");
         let get = |name: &str, v: Option<i64>, signed: bool| -> Result<i64> {
-            let v = v.ok_or_else(|| self.err(line, format!("{key}.{name}: missing (required for a {} term)", t.kind)))?;
+            let v = v.ok_or_else(|| {
+                self.err(
+                    line,
+                    format!("{key}.{name}: missing (required for a {} term)", t.kind),
+                )
+            })?;
             if (!signed && v < 0) || v.abs() > 60 {
                 return Err(self.err(line, format!("{key}.{name}: {v} is out of range")));
             }
@@ -390,7 +434,8 @@ impl Ctx<'_> {
         if !(re.is_finite() && im.is_finite()) {
             return Err(self.err(line, format!("{key}.weight: must be finite [re, im]")));
         }
-        let mode = Mode::new(shape, wavelength_m, waist_m).map_err(|e| self.err(line, format!("{key}: {e}")))?;
+        let mode = Mode::new(shape, wavelength_m, waist_m)
+            .map_err(|e| self.err(line, format!("{key}: {e}")))?;
         Ok((mode, Complex64::new(re, im)))
     }
 
@@ -403,7 +448,14 @@ impl Ctx<'_> {
         }
     }
 
-    fn check_size<T>(&self, key: &str, line: Option<usize>, path: &Path, a: &Array2<T>, grid: Grid) -> Result<()> {
+    fn check_size<T>(
+        &self,
+        key: &str,
+        line: Option<usize>,
+        path: &Path,
+        a: &Array2<T>,
+        grid: Grid,
+    ) -> Result<()> {
         let (r, c) = a.dim();
         if r != grid.n() || c != grid.n() {
             return Err(self.err(
@@ -418,17 +470,32 @@ impl Ctx<'_> {
         Ok(())
     }
 
-    fn element(&self, index: usize, line: Option<usize>, e: &ElementEntry, grid: Grid, wavelength_m: f64) -> Result<(Operation, Grid)> {
+    fn element(
+        &self,
+        index: usize,
+        line: Option<usize>,
+        e: &ElementEntry,
+        grid: Grid,
+        wavelength_m: f64,
+    ) -> Result<(Operation, Grid)> {
         let key = |k: &str| format!("element[{index}].{k}");
-        let kind_spanned = e
-            .kind
-            .as_ref()
-            .ok_or_else(|| self.err(line, format!("element[{index}].kind: missing (expected one of {})", ELEMENT_KINDS.join(", "))))?;
+        let kind_spanned = e.kind.as_ref().ok_or_else(|| {
+            self.err(
+                line,
+                format!(
+                    "element[{index}].kind: missing (expected one of {})",
+                    ELEMENT_KINDS.join(", ")
+                ),
+            )
+        })?;
         let kind = kind_spanned.get_ref().as_str();
         if !ELEMENT_KINDS.contains(&kind) {
             return Err(self.err(
                 Some(self.line_of(kind_spanned.span().start)),
-                format!("element[{index}].kind: unknown kind '{kind}' (expected {})", ELEMENT_KINDS.join(", ")),
+                format!(
+                    "element[{index}].kind: unknown kind '{kind}' (expected {})",
+                    ELEMENT_KINDS.join(", ")
+                ),
             ));
         }
         let allowed = allowed_keys(kind);
@@ -436,25 +503,45 @@ impl Ctx<'_> {
             if !allowed.contains(&k) {
                 return Err(self.err(
                     line,
-                    format!("{}: does not apply to a {kind} element (its keys: {}, name)", key(k), allowed.join(", ")),
+                    format!(
+                        "{}: does not apply to a {kind} element (its keys: {}, name)",
+                        key(k),
+                        allowed.join(", ")
+                    ),
                 ));
             }
         }
-        let req = |k: &str, v: &Option<Q>| -> Result<f64> { self.length(&key(k), self.required(&key(k), line, v)?) };
-        let req_pos = |k: &str, v: &Option<Q>| -> Result<f64> { self.positive_length(&key(k), self.required(&key(k), line, v)?) };
+        let req = |k: &str, v: &Option<Q>| -> Result<f64> {
+            self.length(&key(k), self.required(&key(k), line, v)?)
+        };
+        let req_pos = |k: &str, v: &Option<Q>| -> Result<f64> {
+            self.positive_length(&key(k), self.required(&key(k), line, v)?)
+        };
         let offset = |v: &Option<[Q; 2]>| -> Result<[f64; 2]> {
             match v {
-                Some([x, y]) => Ok([self.length(&key("offset[0]"), x)?, self.length(&key("offset[1]"), y)?]),
+                Some([x, y]) => Ok([
+                    self.length(&key("offset[0]"), x)?,
+                    self.length(&key("offset[1]"), y)?,
+                ]),
                 None => Ok([0.0, 0.0]),
             }
         };
-        let choice = |k: &str, v: &Option<Spanned<String>>, default: &str, options: &[&str]| -> Result<String> {
+        let choice = |k: &str,
+                      v: &Option<Spanned<String>>,
+                      default: &str,
+                      options: &[&str]|
+         -> Result<String> {
             match v {
                 None => Ok(default.to_string()),
                 Some(s) if options.contains(&s.get_ref().as_str()) => Ok(s.get_ref().clone()),
                 Some(s) => Err(self.err(
                     Some(self.line_of(s.span().start)),
-                    format!("{}: unknown value '{}' (expected {})", key(k), s.get_ref(), options.join(", ")),
+                    format!(
+                        "{}: unknown value '{}' (expected {})",
+                        key(k),
+                        s.get_ref(),
+                        options.join(", ")
+                    ),
                 )),
             }
         };
@@ -462,31 +549,77 @@ impl Ctx<'_> {
         let op = match kind {
             "space" => {
                 let length_m = req("length", &e.length)?;
-                let requested = match choice("method", &e.method, "auto", &["auto", "angular-spectrum", "fresnel"])?.as_str() {
+                let requested = match choice(
+                    "method",
+                    &e.method,
+                    "auto",
+                    &["auto", "angular-spectrum", "fresnel"],
+                )?
+                .as_str()
+                {
                     "angular-spectrum" => Method::AngularSpectrum,
                     "fresnel" => Method::Fresnel,
                     _ => Method::Auto,
                 };
                 let (method, reason) = match requested {
                     Method::Auto => choose_method(grid, wavelength_m, length_m),
-                    Method::AngularSpectrum => (Method::AngularSpectrum, "angular spectrum: chosen in the layout".to_string()),
-                    Method::Fresnel => (Method::Fresnel, "single-FFT Fresnel: chosen in the layout".to_string()),
+                    Method::AngularSpectrum => (
+                        Method::AngularSpectrum,
+                        "angular spectrum: chosen in the layout".to_string(),
+                    ),
+                    Method::Fresnel => (
+                        Method::Fresnel,
+                        "single-FFT Fresnel: chosen in the layout".to_string(),
+                    ),
                 };
                 if method == Method::Fresnel && length_m == 0.0 {
-                    return Err(self.err(line, format!("{}: a Fresnel step needs a non-zero length", key("length"))));
+                    return Err(self.err(
+                        line,
+                        format!("{}: a Fresnel step needs a non-zero length", key("length")),
+                    ));
                 }
-                Operation::Space { length_m, method, reason, merged_lens_m: None }
+                Operation::Space {
+                    length_m,
+                    method,
+                    reason,
+                    merged_lens_m: None,
+                }
             }
             "aperture" => {
-                let shape = choice("shape", &e.shape, "", &["circle", "rectangle", "annulus", "gaussian"])?;
+                let shape = choice(
+                    "shape",
+                    &e.shape,
+                    "",
+                    &["circle", "rectangle", "annulus", "gaussian"],
+                )?;
                 let shape = match shape.as_str() {
-                    "circle" => ApertureShape::Circle { radius_m: req_pos("radius", &e.radius)? },
-                    "gaussian" => ApertureShape::Gaussian { radius_m: req_pos("radius", &e.radius)? },
-                    "rectangle" => ApertureShape::Rectangle { width_m: req_pos("width", &e.width)?, height_m: req_pos("height", &e.height)? },
-                    "annulus" => ApertureShape::Annulus { inner_m: req_pos("inner", &e.inner)?, outer_m: req_pos("outer", &e.outer)? },
-                    _ => return Err(self.err(line, format!("{}: missing (expected circle, rectangle, annulus, gaussian)", key("shape")))),
+                    "circle" => ApertureShape::Circle {
+                        radius_m: req_pos("radius", &e.radius)?,
+                    },
+                    "gaussian" => ApertureShape::Gaussian {
+                        radius_m: req_pos("radius", &e.radius)?,
+                    },
+                    "rectangle" => ApertureShape::Rectangle {
+                        width_m: req_pos("width", &e.width)?,
+                        height_m: req_pos("height", &e.height)?,
+                    },
+                    "annulus" => ApertureShape::Annulus {
+                        inner_m: req_pos("inner", &e.inner)?,
+                        outer_m: req_pos("outer", &e.outer)?,
+                    },
+                    _ => {
+                        return Err(self.err(
+                            line,
+                            format!(
+                                "{}: missing (expected circle, rectangle, annulus, gaussian)",
+                                key("shape")
+                            ),
+                        ))
+                    }
                 };
-                let mut a = Aperture::new(shape).map_err(in_range)?.with_offset(offset(&e.offset)?);
+                let mut a = Aperture::new(shape)
+                    .map_err(in_range)?
+                    .with_offset(offset(&e.offset)?);
                 if e.invert == Some(true) {
                     a = a.inverted();
                 }
@@ -494,11 +627,15 @@ impl Ctx<'_> {
             }
             "lens" => {
                 let f = req("focal_length", &e.focal_length)?;
-                let model = match choice("model", &e.model, "paraxial", &["paraxial", "exact"])?.as_str() {
-                    "exact" => LensModel::Exact,
-                    _ => LensModel::Paraxial,
-                };
-                Operation::Lens { lens: ThinLens::new(f, model).map_err(in_range)?, merged: false }
+                let model =
+                    match choice("model", &e.model, "paraxial", &["paraxial", "exact"])?.as_str() {
+                        "exact" => LensModel::Exact,
+                        _ => LensModel::Paraxial,
+                    };
+                Operation::Lens {
+                    lens: ThinLens::new(f, model).map_err(in_range)?,
+                    merged: false,
+                }
             }
             "aberration" => {
                 let radius = req_pos("radius", &e.radius)?;
@@ -506,7 +643,13 @@ impl Ctx<'_> {
                 let mut terms = Vec::new();
                 for (j_text, q) in table {
                     let j: usize = j_text.trim().parse().map_err(|_| {
-                        self.err(Some(self.line_of(q.span().start)), format!("{}: '{j_text}' is not a Noll index (expected an integer 1 to 231)", key("zernike")))
+                        self.err(
+                            Some(self.line_of(q.span().start)),
+                            format!(
+                                "{}: '{j_text}' is not a Noll index (expected an integer 1 to 231)",
+                                key("zernike")
+                            ),
+                        )
                     })?;
                     let k = format!("{}.{j}", key("zernike"));
                     let w = Wavefront::parse(&q.get_ref().0).map_err(|er| self.wrap(&k, q, er))?;
@@ -521,19 +664,29 @@ impl Ctx<'_> {
                 if charge == 0 || charge.abs() > 200 {
                     return Err(self.err(line, format!("{}: {charge} is out of range (expected a non-zero integer, |charge| ≤ 200)", key("charge"))));
                 }
-                Operation::Vortex(Vortex { charge: charge as i32, offset_m: offset(&e.offset)? })
+                Operation::Vortex(Vortex {
+                    charge: charge as i32,
+                    offset_m: offset(&e.offset)?,
+                })
             }
             "tilt" => {
                 let angle = |k: &str, v: &Option<Q>| -> Result<f64> {
                     match v {
-                        Some(q) => Angle::parse(&q.get_ref().0).map(Angle::as_rad).map_err(|er| self.wrap(&key(k), q, er)),
+                        Some(q) => Angle::parse(&q.get_ref().0)
+                            .map(Angle::as_rad)
+                            .map_err(|er| self.wrap(&key(k), q, er)),
                         None => Ok(0.0),
                     }
                 };
-                let t = Tilt { x_rad: angle("x", &e.x)?, y_rad: angle("y", &e.y)? };
+                let t = Tilt {
+                    x_rad: angle("x", &e.x)?,
+                    y_rad: angle("y", &e.y)?,
+                };
                 for (k, v) in [("x", t.x_rad), ("y", t.y_rad)] {
                     if v.abs() >= std::f64::consts::FRAC_PI_2 {
-                        return Err(self.err(line, format!("{}: tilt must be below 90 deg", key(k))));
+                        return Err(
+                            self.err(line, format!("{}: tilt must be below 90 deg", key(k)))
+                        );
                     }
                 }
                 Operation::Tilt(t)
@@ -541,14 +694,27 @@ impl Ctx<'_> {
             "mask" => {
                 let f = self.required(&key("file"), line, &e.file)?;
                 let fline = Some(self.line_of(f.span().start));
-                let kind = match choice("type", &e.mask_type, "", &["amplitude", "phase", "complex"])?.as_str() {
-                    "amplitude" => MaskKind::Amplitude,
-                    "phase" => MaskKind::Phase,
-                    "complex" => MaskKind::Complex,
-                    _ => return Err(self.err(line, format!("{}: missing (expected amplitude, phase, complex)", key("type")))),
-                };
+                let kind =
+                    match choice("type", &e.mask_type, "", &["amplitude", "phase", "complex"])?
+                        .as_str()
+                    {
+                        "amplitude" => MaskKind::Amplitude,
+                        "phase" => MaskKind::Phase,
+                        "complex" => MaskKind::Complex,
+                        _ => {
+                            return Err(self.err(
+                                line,
+                                format!(
+                                    "{}: missing (expected amplitude, phase, complex)",
+                                    key("type")
+                                ),
+                            ))
+                        }
+                    };
                 let path = self.resolve(f.get_ref());
-                let is_png = path.extension().is_some_and(|x| x.eq_ignore_ascii_case("png"));
+                let is_png = path
+                    .extension()
+                    .is_some_and(|x| x.eq_ignore_ascii_case("png"));
                 let values = if is_png {
                     if kind == MaskKind::Complex {
                         return Err(self.err(fline, format!("{}: a PNG mask can be amplitude or phase, not complex (use an NPY file)", key("type"))));
@@ -567,7 +733,11 @@ impl Ctx<'_> {
             _ => unreachable!("kinds are checked above"),
         };
         let after = match &op {
-            Operation::Space { method: Method::Fresnel, length_m, .. } => FresnelSingleFft::new(*length_m)
+            Operation::Space {
+                method: Method::Fresnel,
+                length_m,
+                ..
+            } => FresnelSingleFft::new(*length_m)
                 .and_then(|f| f.output_grid(grid, wavelength_m))
                 .map_err(in_range)?,
             _ => grid,
@@ -577,8 +747,20 @@ impl Ctx<'_> {
 
     fn probe(&self, index: usize, line: Option<usize>, e: &ElementEntry) -> Result<ProbeSpec> {
         let key = |k: &str| format!("element[{index}].{k}");
-        let name = e.name.clone().ok_or_else(|| self.err(line, format!("{}: missing (a probe needs a name; it is used for file names)", key("name"))))?;
-        if name.is_empty() || !name.chars().all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_') {
+        let name = e.name.clone().ok_or_else(|| {
+            self.err(
+                line,
+                format!(
+                    "{}: missing (a probe needs a name; it is used for file names)",
+                    key("name")
+                ),
+            )
+        })?;
+        if name.is_empty()
+            || !name
+                .chars()
+                .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
+        {
             return Err(self.err(line, format!("{}: '{name}' must be non-empty and use only letters, digits, '-' and '_' (it names files)", key("name"))));
         }
         let mut spec = ProbeSpec {
@@ -600,7 +782,10 @@ impl Ctx<'_> {
                 other => {
                     return Err(self.err(
                         Some(self.line_of(s.span().start)),
-                        format!("{}: unknown item '{other}' (expected intensity, phase, field, profile)", key("save")),
+                        format!(
+                        "{}: unknown item '{other}' (expected intensity, phase, field, profile)",
+                        key("save")
+                    ),
                     ))
                 }
             }
@@ -609,16 +794,39 @@ impl Ctx<'_> {
             let basis = match m.basis.as_str() {
                 "laguerre-gauss" => Basis::LaguerreGauss,
                 "hermite-gauss" => Basis::HermiteGauss,
-                other => return Err(self.err(line, format!("{}: unknown basis '{other}' (expected laguerre-gauss, hermite-gauss)", key("modes.basis")))),
+                other => {
+                    return Err(self.err(
+                        line,
+                        format!(
+                            "{}: unknown basis '{other}' (expected laguerre-gauss, hermite-gauss)",
+                            key("modes.basis")
+                        ),
+                    ))
+                }
             };
             if !(0..=40).contains(&m.order) {
-                return Err(self.err(line, format!("{}: {} is out of range (expected 0 to 40)", key("modes.order"), m.order)));
+                return Err(self.err(
+                    line,
+                    format!(
+                        "{}: {} is out of range (expected 0 to 40)",
+                        key("modes.order"),
+                        m.order
+                    ),
+                ));
             }
             spec.modes = Some(ModesSpec {
                 basis,
                 order: m.order as usize,
-                waist_m: m.waist.as_ref().map(|q| self.positive_length(&key("modes.waist"), q)).transpose()?,
-                waist_at_m: m.waist_at.as_ref().map(|q| self.length(&key("modes.waist_at"), q)).transpose()?,
+                waist_m: m
+                    .waist
+                    .as_ref()
+                    .map(|q| self.positive_length(&key("modes.waist"), q))
+                    .transpose()?,
+                waist_at_m: m
+                    .waist_at
+                    .as_ref()
+                    .map(|q| self.length(&key("modes.waist_at"), q))
+                    .transpose()?,
             });
         }
         if let Some(c) = &e.caustic {
@@ -629,7 +837,12 @@ impl Ctx<'_> {
             spec.caustic = Some(CausticOptions {
                 span_m,
                 planes: c.planes as usize,
-                centre_m: c.centre.as_ref().map(|q| self.length(&key("caustic.centre"), q)).transpose()?.unwrap_or(0.0),
+                centre_m: c
+                    .centre
+                    .as_ref()
+                    .map(|q| self.length(&key("caustic.centre"), q))
+                    .transpose()?
+                    .unwrap_or(0.0),
             });
         }
         Ok(spec)
@@ -644,7 +857,12 @@ fn merge_lenses_into_fresnel(steps: &mut [Step]) {
         let (head, tail) = steps.split_at_mut(i + 1);
         if let (
             Operation::Lens { lens, merged },
-            Operation::Space { method: Method::Fresnel, merged_lens_m, reason, .. },
+            Operation::Space {
+                method: Method::Fresnel,
+                merged_lens_m,
+                reason,
+                ..
+            },
         ) = (&mut head[i].op, &mut tail[0].op)
         {
             if lens.model == LensModel::Paraxial {

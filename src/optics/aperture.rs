@@ -133,7 +133,9 @@ impl Aperture {
             ApertureShape::Annulus { inner_m, outer_m } => {
                 disk_pixel_fraction(outer_m, x, y, dx_m) - disk_pixel_fraction(inner_m, x, y, dx_m)
             }
-            ApertureShape::Gaussian { radius_m } => (-(x * x + y * y) / (radius_m * radius_m)).exp(),
+            ApertureShape::Gaussian { radius_m } => {
+                (-(x * x + y * y) / (radius_m * radius_m)).exp()
+            }
         };
         match self.polarity {
             Polarity::Opening => t,
@@ -164,7 +166,9 @@ impl Aperture {
                 let y = xs[iy];
                 row.iter()
                     .zip(&xs)
-                    .map(|(v, &x)| self.intensity_weight(self.pixel_transmission(x, y, dx)) * v.norm_sqr())
+                    .map(|(v, &x)| {
+                        self.intensity_weight(self.pixel_transmission(x, y, dx)) * v.norm_sqr()
+                    })
                     .sum::<f64>()
             })
             .collect();
@@ -298,13 +302,20 @@ mod tests {
                 }
             }
             let area = sum * dx * dx;
-            assert!((area / (std::f64::consts::PI * r * r) - 1.0).abs() < 1e-12, "r={r}: {area}");
+            assert!(
+                (area / (std::f64::consts::PI * r * r) - 1.0).abs() < 1e-12,
+                "r={r}: {area}"
+            );
         }
     }
 
     #[test]
     fn rectangle_fraction_is_exact() {
-        let a = Aperture::new(ApertureShape::Rectangle { width_m: 1.0, height_m: 0.5 }).unwrap();
+        let a = Aperture::new(ApertureShape::Rectangle {
+            width_m: 1.0,
+            height_m: 0.5,
+        })
+        .unwrap();
         assert!((a.pixel_transmission(0.5, 0.0, 0.2) - 0.5).abs() < 1e-15);
         assert!((a.pixel_transmission(0.5, 0.25, 0.2) - 0.25).abs() < 1e-15);
         assert_eq!(a.inverted().pixel_transmission(0.0, 0.0, 0.2), 0.0);
@@ -313,7 +324,15 @@ mod tests {
     #[test]
     fn rejects_bad_dimensions() {
         assert!(Aperture::new(ApertureShape::Circle { radius_m: 0.0 }).is_err());
-        assert!(Aperture::new(ApertureShape::Annulus { inner_m: 2.0, outer_m: 1.0 }).is_err());
-        assert!(Aperture::new(ApertureShape::Rectangle { width_m: f64::NAN, height_m: 1.0 }).is_err());
+        assert!(Aperture::new(ApertureShape::Annulus {
+            inner_m: 2.0,
+            outer_m: 1.0
+        })
+        .is_err());
+        assert!(Aperture::new(ApertureShape::Rectangle {
+            width_m: f64::NAN,
+            height_m: 1.0
+        })
+        .is_err());
     }
 }

@@ -91,7 +91,10 @@ mod tests {
         // By symmetry the average of exp(ilφ) over a square centred on the
         // singularity vanishes for every l ≠ 0 (common practice).
         for l in [1, -2, 3] {
-            let v = Vortex { charge: l, offset_m: [0.0, 0.0] };
+            let v = Vortex {
+                charge: l,
+                offset_m: [0.0, 0.0],
+            };
             assert!(v.pixel_transmission(0.0, 0.0, 1e-5).norm() < 1e-12);
             let t = v.pixel_transmission(5e-5, 2e-5, 1e-5);
             let expected = Complex64::from_polar(1.0, l as f64 * 2f64.atan2(5.0));

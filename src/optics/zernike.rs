@@ -164,9 +164,9 @@ impl Aberration {
                 })
             })
             .collect();
-        let [a, aw, aw2] = rows
-            .iter()
-            .fold([0.0; 3], |acc, r| [acc[0] + r[0], acc[1] + r[1], acc[2] + r[2]]);
+        let [a, aw, aw2] = rows.iter().fold([0.0; 3], |acc, r| {
+            [acc[0] + r[0], acc[1] + r[1], acc[2] + r[2]]
+        });
         if a <= 0.0 {
             return 0.0;
         }
@@ -202,7 +202,10 @@ mod tests {
             (8, 8f64.sqrt() * (3.0 * rho.powi(3) - 2.0 * rho) * th.cos()),
             (9, 8f64.sqrt() * rho.powi(3) * (3.0 * th).sin()),
             (10, 8f64.sqrt() * rho.powi(3) * (3.0 * th).cos()),
-            (11, 5f64.sqrt() * (6.0 * rho.powi(4) - 6.0 * rho * rho + 1.0)),
+            (
+                11,
+                5f64.sqrt() * (6.0 * rho.powi(4) - 6.0 * rho * rho + 1.0),
+            ),
         ];
         for (j, expected) in cases {
             assert!((zernike(j, rho, th) - expected).abs() < 1e-13, "j = {j}");

@@ -132,7 +132,10 @@ impl AngularSpectrum {
             return Err(Error::out_of_range(
                 "field wavelength",
                 format!("{} m", field.wavelength_m()),
-                format!("expected {} m, the wavelength of this step", self.wavelength_m),
+                format!(
+                    "expected {} m, the wavelength of this step",
+                    self.wavelength_m
+                ),
             ));
         }
         let n = self.grid.n();

@@ -67,10 +67,7 @@ impl FresnelSingleFft {
     /// # Errors
     /// [`Error::OutOfRange`] if the output spacing is not representable.
     pub fn output_grid(&self, input: Grid, wavelength_m: f64) -> Result<Grid> {
-        Grid::new(
-            input.n(),
-            wavelength_m * self.z_m.abs() / input.width_m(),
-        )
+        Grid::new(input.n(), wavelength_m * self.z_m.abs() / input.width_m())
     }
 
     /// Propagates `field` in place; the field's grid changes to

@@ -1,1 +1,26 @@
-fn main() {}
+//! The `beamwright` command: a thin front end over the library.
+
+mod args;
+mod commands;
+
+use std::process::ExitCode;
+
+use clap::Parser;
+
+fn main() -> ExitCode {
+    let cli = args::Cli::parse();
+    match commands::dispatch(cli) {
+        Ok(code) => code,
+        Err(err) => {
+            if let Some(io) =
+                std::error::Error::source(&err).and_then(|s| s.downcast_ref::<std::io::Error>())
+            {
+                if io.kind() == std::io::ErrorKind::BrokenPipe {
+                    return ExitCode::SUCCESS;
+                }
+            }
+            eprintln!("beamwright: {err}");
+            ExitCode::from(2)
+        }
+    }
+}
