@@ -89,9 +89,9 @@ fn hg_and_lg_second_moment_radii() {
             iso_moments(&e, grid).unwrap(),
             plain_moments(&e, grid).unwrap(),
         ] {
-            for axis in 0..2 {
+            for (axis, m2_axis) in m2.iter().enumerate() {
                 let radius = m.d4sigma_m[axis] / 2.0;
-                let expected = w * m2[axis].sqrt();
+                let expected = w * m2_axis.sqrt();
                 assert!(
                     (radius / expected - 1.0).abs() < 1e-3,
                     "{shape:?} axis {axis}: {radius} vs {expected}"
@@ -128,21 +128,17 @@ fn caustic_m2_of_gaussian_hg21_and_lg12() {
             "{shape:?}: axes at {}",
             c.axes_azimuth_rad
         );
-        for axis in 0..2 {
+        for (axis, &m2_axis) in m2.iter().enumerate() {
             let f = c.fit[axis];
             assert!(f.valid, "{shape:?}: {:?}", c.warnings);
-            let tol = if m2[axis] == 1.0 {
-                0.01
-            } else {
-                0.01 * m2[axis]
-            };
+            let tol = if m2_axis == 1.0 { 0.01 } else { 0.01 * m2_axis };
             assert!(
-                (f.m2 - m2[axis]).abs() < tol,
+                (f.m2 - m2_axis).abs() < tol,
                 "{shape:?} axis {axis}: M² = {}",
                 f.m2
             );
             // Waist D4σ = 2·w0·sqrt(M²) at z = 0, zR unchanged (embedded Gaussian).
-            let d0 = 2.0 * w0 * m2[axis].sqrt();
+            let d0 = 2.0 * w0 * m2_axis.sqrt();
             assert!(
                 (f.waist_d4sigma_m / d0 - 1.0).abs() < 0.01,
                 "{shape:?}: d0 = {}",
