@@ -6,7 +6,10 @@
 //! orthonormal over the unit disc, so a coefficient is the RMS of its term
 //! and the RMS wavefront error is `sqrt(Σ_{j≥2} a_j²)`. The aberration
 //! `W = Σ a_j·Z_j` (metres of optical path) multiplies the field by
-//! `exp(ikW)` inside the disc; outside, the field is unchanged.
+//! `exp(ikW)` on every pixel that overlaps the disc (centre within
+//! `a + dx/√2`, the polynomial continued over that half-pixel margin), so
+//! that an area-weighted aperture of the same radius has no unaberrated
+//! edge pixels; further out the field is unchanged.
 
 use num_complex::Complex64;
 
@@ -116,11 +119,21 @@ impl Aberration {
 
     /// Optical path `W(x, y)` in metres (0 outside the disc).
     pub fn path_m(&self, x_m: f64, y_m: f64) -> f64 {
+        self.path_within_m(x_m, y_m, 0.0)
+    }
+
+    /// Optical path `W(x, y)` in metres, applied out to `margin_m` beyond
+    /// the disc edge (the polynomial continued), 0 further out. With
+    /// `margin_m = dx/√2` every pixel that overlaps the disc gets the phase,
+    /// so the partly open edge pixels of an area-weighted aperture of the
+    /// same radius are aberrated too.
+    pub fn path_within_m(&self, x_m: f64, y_m: f64, margin_m: f64) -> f64 {
         let (x, y) = (x_m - self.offset_m[0], y_m - self.offset_m[1]);
-        let rho = (x * x + y * y).sqrt() / self.radius_m;
-        if rho > 1.0 {
+        let r = (x * x + y * y).sqrt();
+        if r > self.radius_m + margin_m {
             return 0.0;
         }
+        let rho = r / self.radius_m;
         let theta = y.atan2(x);
         self.terms
             .iter()
@@ -147,6 +160,7 @@ impl Aberration {
         use ndarray::Axis;
         use rayon::prelude::*;
         let xs = field.grid().coords_m();
+        let margin = field.grid().spacing_m() * std::f64::consts::FRAC_1_SQRT_2;
         let rows: Vec<[f64; 3]> = field
             .values
             .axis_iter(Axis(0))
@@ -159,7 +173,7 @@ impl Aberration {
                     if amp == 0.0 {
                         return [a, aw, aw2];
                     }
-                    let w = self.path_m(x, y);
+                    let w = self.path_within_m(x, y, margin);
                     [a + amp, aw + amp * w, aw2 + amp * w * w]
                 })
             })
@@ -178,7 +192,8 @@ impl Aberration {
     pub fn apply(&self, field: &mut Field) -> Transmission {
         let p = field.power_w();
         let k = field.wavenumber_per_m();
-        field.multiply_by(|x, y| Complex64::from_polar(1.0, k * self.path_m(x, y)));
+        let margin = field.grid().spacing_m() * std::f64::consts::FRAC_1_SQRT_2;
+        field.multiply_by(|x, y| Complex64::from_polar(1.0, k * self.path_within_m(x, y, margin)));
         Transmission::lossless(p)
     }
 }
