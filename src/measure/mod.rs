@@ -14,7 +14,7 @@
 //! | file | measures | source |
 //! |---|---|---|
 //! | [`moments`] | centroid, σx², σy², σxy, D4σ along x/y and principal axes, azimuth, ISO iterated integration area | ISO 11146-1/-2 (from memory) |
-//! | [`caustic`] | through-focus D4σ scan, hyperbolic fit: M², waist diameter and position, Rayleigh length, full-angle divergence, residual | ISO 11146-1 (from memory) |
+//! | [`caustic`](mod@caustic) | through-focus D4σ scan, hyperbolic fit: M², waist diameter and position, Rayleigh length, full-angle divergence, residual | ISO 11146-1 (from memory) |
 //! | [`modes`] | HG / LG overlap coefficients, power fractions, phases, captured fraction, basis used | common practice; Siegman 1990 for the embedded-Gaussian basis (from memory) |
 //! | [`strehl`] | Strehl ratio, Maréchal estimate, exact defocus Strehl | Born & Wolf §8.8, §9; Mahajan 1983 (from memory) |
 //! | [`encircled`] | encircled / ensquared energy, radius for a fraction, power through an aperture | Born & Wolf §8.5 (from memory) |

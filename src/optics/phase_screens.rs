@@ -101,7 +101,10 @@ mod tests {
             assert!((t - expected).norm() < 1e-15);
             // A neighbour of the core has |t| < 1 but keeps the phase direction.
             let n = v.pixel_transmission(1e-5, 0.0, 1e-5);
-            assert!(n.norm() < 1.0 && n.norm() > 0.3 && n.arg().abs() < 1e-12, "l = {l}: {n}");
+            assert!(
+                n.norm() < 1.0 && n.norm() > 0.3 && n.arg().abs() < 1e-12,
+                "l = {l}: {n}"
+            );
         }
     }
 }
