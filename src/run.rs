@@ -24,8 +24,8 @@ use crate::measure::{self, Basis, BasisChoice};
 use crate::optics::Transmission;
 use crate::propagate::{AngularSpectrum, FresnelSingleFft, Method};
 use crate::report::json::{
-    BasisRecord, CausticRecord, ElementRecord, ModeRecord, ParaxialRecord, ProbeRecord, Report,
-    RingRecord,
+    BasisRecord, CausticRecord, CurveRecord, ElementRecord, ModeRecord, ParaxialRecord,
+    ProbeRecord, ProfileRecord, Report, RingRecord,
 };
 
 /// Fraction of the field power in the outer border above which a warning is raised.
@@ -420,12 +420,29 @@ fn measure_probe(
     }
     let (peak, peak_at) = measure::peak(&irradiance, grid);
     let mut encircled = BTreeMap::new();
+    let mut ensquared = BTreeMap::new();
     for fraction in [0.5, 0.865, 0.95] {
         encircled.insert(
             format!("{fraction}"),
             measure::radius_for_fraction(field, iso.centroid_m, fraction),
         );
+        ensquared.insert(
+            format!("{fraction}"),
+            measure::half_width_for_fraction(field, iso.centroid_m, fraction),
+        );
     }
+    // The encircled-energy curve: 48 radii out to twice the 95 % radius.
+    let r95 = encircled.get("0.95").copied().unwrap_or(f64::NAN);
+    let r_max = if r95.is_finite() && r95 > 0.0 {
+        (2.0 * r95).min(grid.width_m() / 2.0)
+    } else {
+        grid.width_m() / 2.0
+    };
+    let radii: Vec<f64> = (1..=48).map(|k| r_max * k as f64 / 48.0).collect();
+    let encircled_energy = CurveRecord {
+        y: measure::encircled_curve(field, iso.centroid_m, &radii),
+        x_m: radii,
+    };
     let ring = measure::ring_metrics(&irradiance, grid, iso.centroid_m).map(|r| RingRecord {
         ring_radius_m: r.ring_radius_m,
         ring_peak_w_m2: r.ring_peak_w_m2,
@@ -499,6 +516,35 @@ fn measure_probe(
         }
         None => (None, None),
     };
+    // Profiles through the centroid, out to 1.5 principal D4σ diameters.
+    let shown = (iso.principal_d4sigma_m[0] * 1.5).min(grid.width_m() / 2.0);
+    let profile = spec.save_profile.then(|| {
+        let (r, i) = measure::radial_profile(&irradiance, grid, iso.centroid_m, grid.n());
+        let keep = r
+            .iter()
+            .take_while(|&&r| r <= shown)
+            .count()
+            .max(2)
+            .min(r.len());
+        let (x, xv, y, yv) = measure::cuts(&irradiance, grid, iso.centroid_m);
+        let window = |c: &[f64], v: &[f64], centre: f64| -> CurveRecord {
+            let (x_m, y): (Vec<f64>, Vec<f64>) = c
+                .iter()
+                .zip(v)
+                .filter(|(c, _)| (**c - centre).abs() <= shown)
+                .map(|(c, v)| (*c, *v))
+                .unzip();
+            CurveRecord { x_m, y }
+        };
+        ProfileRecord {
+            radial: CurveRecord {
+                x_m: r[..keep].to_vec(),
+                y: i[..keep].to_vec(),
+            },
+            x_cut: window(&x, &xv, iso.centroid_m[0]),
+            y_cut: window(&y, &yv, iso.centroid_m[1]),
+        }
+    });
     let mut files = BTreeMap::new();
     let caustic = match &spec.caustic {
         Some(options) => {
@@ -554,23 +600,14 @@ fn measure_probe(
             crate::report::npy::write_field_npy(&dir.join(&name), field)?;
             files.insert("field".to_string(), name);
         }
-        if spec.save_profile {
+        if let Some(prof) = &profile {
             let name = format!("{}_profile.png", spec.name);
-            // One-pixel annuli, shown out to 1.5 principal D4σ diameters.
-            let shown = (iso.principal_d4sigma_m[0] * 1.5).min(grid.width_m() / 2.0);
-            let (r, i) = measure::radial_profile(&irradiance, grid, iso.centroid_m, grid.n());
-            let keep = r
-                .iter()
-                .take_while(|&&r| r <= shown)
-                .count()
-                .max(2)
-                .min(r.len());
+            let (r, i) = (&prof.radial.x_m, &prof.radial.y);
             // For a Gaussian source, the paraxial Gaussian with this probe's
             // power is drawn for comparison.
             let reference: Option<Vec<f64>> = match (&paraxial, plan.source.m2()) {
                 (Some(p), Some([mx, my])) if mx == 1.0 && my == 1.0 => Some(
-                    r[..keep]
-                        .iter()
+                    r.iter()
                         .map(|&r| {
                             2.0 * power_w / (std::f64::consts::PI * p.w_m * p.w_m)
                                 * (-2.0 * r * r / (p.w_m * p.w_m)).exp()
@@ -581,8 +618,8 @@ fn measure_probe(
             };
             crate::report::plot::write_radial_profile_plot(
                 &dir.join(&name),
-                &r[..keep],
-                &i[..keep],
+                r,
+                i,
                 reference
                     .as_deref()
                     .map(|v| ("paraxial Gaussian, same power", v)),
@@ -607,6 +644,9 @@ fn measure_probe(
         peak_location_m: peak_at,
         axis_irradiance_w_m2: irradiance[[grid.centre_index(), grid.centre_index()]],
         encircled_radius_m: encircled,
+        ensquared_half_width_m: ensquared,
+        encircled_energy,
+        profile,
         ring,
         paraxial,
         strehl: None,

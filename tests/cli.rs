@@ -425,6 +425,60 @@ fn good_layout_runs() {
     for key in ["index", "kind", "z_m", "power_in_w", "power_out_w"] {
         assert!(r["elements"][0].get(key).is_some(), "element key {key}");
     }
+    // Encircled energy of a Gaussian about its centroid: 1 − exp(−2r²/w²)
+    // (Siegman, Lasers (1986) ch. 17, from memory); w = 0.4 mm barely changes
+    // over 10 mm (zR = 0.47 m). Tolerance 2.5e-3: the pixel-weighted circle
+    // errs by about (dx²/24)·∮∂I/∂n ds (src/measure/encircled.rs), which is
+    // 1.4e-4 at 30 samples per w and grows as (dx/w)²: 2.0e-3 at the 8
+    // samples per radius used here (tests/measure.rs checks 1e-4 on a fine grid).
+    let w = 0.4e-3 * (1.0f64 + (0.01 / (std::f64::consts::PI * 0.16e-6 / 1064e-9)).powi(2)).sqrt();
+    let curve = &p["encircled_energy"];
+    let radii = curve["x_m"].as_array().unwrap();
+    let fractions = curve["y"].as_array().unwrap();
+    assert_eq!(radii.len(), fractions.len());
+    for (r, frac) in radii.iter().zip(fractions) {
+        let expected = 1.0 - (-2.0 * f(r).powi(2) / (w * w)).exp();
+        assert!(
+            (f(frac) - expected).abs() < 2.5e-3,
+            "r = {r}: {frac} vs {expected}"
+        );
+    }
+    // A centred square of half-width h holds erf(√2·h/w)² (d.h., PHYSICS.md §7 slit row).
+    let h = f(&p["ensquared_half_width_m"]["0.5"]);
+    assert!(h > 0.0 && h < f(&p["encircled_radius_m"]["0.5"]), "{h}");
+}
+
+#[test]
+fn profile_save_adds_profiles_to_the_report() {
+    let dir = tempfile::tempdir().unwrap();
+    let layout = GOOD.replace("name = \"end\"", "name = \"end\"\nsave = [\"profile\"]");
+    std::fs::write(dir.path().join("good.toml"), layout).unwrap();
+    let o = run_in(dir.path(), &["run", "good.toml", "-o", "out", "--quiet"]);
+    assert!(o.status.success(), "{:?}", text(&o));
+    let r = report(&dir.path().join("out"));
+    let p = probe(&r, "end");
+    assert!(dir
+        .path()
+        .join("out")
+        .join(p["files"]["profile"].as_str().unwrap())
+        .is_file());
+    // The radial profile and the x cut of a centred Gaussian agree with
+    // 2P/(πw²)·exp(−2r²/w²) (Siegman ch. 17, from memory) to 2 % of the peak:
+    // one-pixel annuli average over ±dx/2 in r.
+    let w = 0.4e-3 * (1.0f64 + (0.01 / (std::f64::consts::PI * 0.16e-6 / 1064e-9)).powi(2)).sqrt();
+    let i0 = 2.0 / (std::f64::consts::PI * w * w);
+    for key in ["radial", "x_cut", "y_cut"] {
+        let c = &p["profile"][key];
+        let xs = c["x_m"].as_array().unwrap();
+        assert!(xs.len() > 10, "{key}");
+        for (x, y) in xs.iter().zip(c["y"].as_array().unwrap()) {
+            let expected = i0 * (-2.0 * f(x).powi(2) / (w * w)).exp();
+            assert!(
+                (f(y) - expected).abs() < 0.02 * i0,
+                "{key} at {x}: {y} vs {expected}"
+            );
+        }
+    }
 }
 
 #[test]
@@ -639,6 +693,12 @@ fn sampling_advisor_warnings_are_triggered() {
         "[[element]]\nkind = \"lens\"\nfocal_length = \"100 mm\"\n\n[[element]]\nkind = \"space\"\nlength = \"100 mm\"\nmethod = \"fresnel\"",
     ));
     assert!(out.contains("too coarse"), "{out}");
+    // A high-charge vortex on a coarse grid aliases near its core.
+    let out = check(&GOOD.replace(
+        "[[element]]\nkind = \"space\"",
+        "[[element]]\nkind = \"vortex\"\ncharge = 40\n\n[[element]]\nkind = \"space\"",
+    ));
+    assert!(out.contains("spiral phase aliases"), "{out}");
     // An FFT-unfriendly size.
     let out = check(&GOOD.replace("n = 64", "n = 67"));
     assert!(out.contains("use n = 70"), "{out}");

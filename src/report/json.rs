@@ -23,7 +23,10 @@
 //!   [major, minor]`, `azimuth_rad`, `iso_converged`, `d4sigma_plain_m`
 //!   (whole-grid second moments, no integration area), `peak_irradiance_w_m2`,
 //!   `peak_location_m`, `axis_irradiance_w_m2`, `encircled_radius_m` `{"0.5", "0.865", "0.95"}` about
-//!   the centroid, `ring`? `{ring_radius_m, ring_peak_w_m2, centre_w_m2,
+//!   the centroid, `ensquared_half_width_m` (same fractions, centred
+//!   squares), `encircled_energy` `{x_m: radii, y: fractions}`, `profile`?
+//!   `{radial, x_cut, y_cut}` each `{x_m, y: W/m²}` (when `save` has
+//!   "profile"), `ring`? `{ring_radius_m, ring_peak_w_m2, centre_w_m2,
 //!   null_depth}`, `paraxial`? `{w_m, radius_of_curvature_m, gouy_rad,
 //!   predicted_radius_m, width_deviation}`, `strehl`?, `strehl_marechal`?,
 //!   `modes`? `[{p|m, l|n, power_fraction, phase_rad}]`, `modes_basis`?
@@ -117,6 +120,26 @@ pub struct ElementRecord {
     pub grid_after: GridRecord,
     /// Warnings raised while applying it.
     pub warnings: Vec<String>,
+}
+
+/// A sampled curve `y(x)`.
+#[derive(Debug, Clone, Serialize)]
+pub struct CurveRecord {
+    /// Abscissa (radius, half-width or coordinate), metres.
+    pub x_m: Vec<f64>,
+    /// Ordinate: a fraction, or irradiance in W/m² (see the key).
+    pub y: Vec<f64>,
+}
+
+/// Irradiance profiles through the centroid, W/m².
+#[derive(Debug, Clone, Serialize)]
+pub struct ProfileRecord {
+    /// Azimuthal average versus radius (one-pixel annuli).
+    pub radial: CurveRecord,
+    /// Cut along x through the centroid's row.
+    pub x_cut: CurveRecord,
+    /// Cut along y through the centroid's column.
+    pub y_cut: CurveRecord,
 }
 
 /// Paraxial prediction at a probe.
@@ -237,6 +260,13 @@ pub struct ProbeRecord {
     pub axis_irradiance_w_m2: f64,
     /// Radii about the centroid holding 50 %, 86.5 % and 95 % of the power.
     pub encircled_radius_m: BTreeMap<String, f64>,
+    /// Half-widths of centroid-centred squares holding 50 %, 86.5 % and 95 %.
+    pub ensquared_half_width_m: BTreeMap<String, f64>,
+    /// Encircled-energy curve about the centroid.
+    pub encircled_energy: CurveRecord,
+    /// Radial profile and x/y cuts (when the probe saves "profile").
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub profile: Option<ProfileRecord>,
     /// Ring metrics for ring-shaped beams.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub ring: Option<RingRecord>,
