@@ -261,7 +261,7 @@ pub fn format_table(results: &[CheckResult]) -> String {
             } else {
                 s.push_str(cell);
                 let pad = widths[i] - cell.chars().count() + 2;
-                s.extend(std::iter::repeat(' ').take(pad));
+                s.extend(std::iter::repeat_n(' ', pad));
             }
         }
         s.push('\n');

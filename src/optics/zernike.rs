@@ -35,7 +35,7 @@ pub fn noll_to_nm(j: usize) -> (usize, i32) {
     }
     let magnitude = (n % 2) + 2 * ((j1 + (n + 1) % 2) / 2);
     let m = magnitude as i32;
-    if j % 2 == 0 {
+    if j.is_multiple_of(2) {
         (n, m)
     } else {
         (n, -m)
@@ -44,7 +44,7 @@ pub fn noll_to_nm(j: usize) -> (usize, i32) {
 
 /// Radial polynomial `R_n^|m|(ρ)` by its explicit sum.
 pub fn radial(n: usize, m: usize, rho: f64) -> f64 {
-    if m > n || (n - m) % 2 != 0 {
+    if m > n || !(n - m).is_multiple_of(2) {
         return 0.0;
     }
     let fact = |k: usize| (1..=k).map(|v| v as f64).product::<f64>();
