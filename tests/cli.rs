@@ -509,6 +509,16 @@ fn missing_and_unreadable_files() {
     assert!(!dir.path().join("out").exists());
     let o = run_in(dir.path(), &["check", "nope.toml"]);
     assert_eq!(o.status.code(), Some(2));
+    // Unreadable: a directory where a file is expected, and invalid UTF-8.
+    std::fs::create_dir(dir.path().join("adir.toml")).unwrap();
+    let o = run_in(dir.path(), &["run", "adir.toml", "-o", "out"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o).1.contains("adir.toml"), "{:?}", text(&o));
+    std::fs::write(dir.path().join("binary.toml"), [0xff, 0xfe, 0x00, 0x41]).unwrap();
+    let o = run_in(dir.path(), &["run", "binary.toml", "-o", "out"]);
+    assert_eq!(o.status.code(), Some(2));
+    assert!(text(&o).1.contains("binary.toml"), "{:?}", text(&o));
+    assert!(!dir.path().join("out").exists());
 }
 
 #[test]
