@@ -109,28 +109,43 @@ impl Fft2 {
         self.rows(data, &self.inverse);
     }
 
-    /// In-place inverse 2-D FFT, scaled by `1/n²`.
+    /// In-place inverse 2-D FFT, scaled by `1/n²` (the scaling is applied
+    /// in the row pass, while each band of rows is in cache).
     ///
     /// # Panics
     /// As [`Fft2::forward`].
     pub fn inverse(&self, data: &mut Array2<Complex64>) {
-        self.inverse_unscaled(data);
+        self.columns(data, &self.inverse, None, |_, _| 0.0);
         let scale = 1.0 / (self.n * self.n) as f64;
-        data.par_mapv_inplace(|v| v * scale);
+        self.rows_scaled(data, &self.inverse, Some(scale));
     }
 
-    /// Fused convolution step: forward FFT, multiply by `transfer`, inverse
-    /// FFT. `transfer` is in FFT order, shape `(n, n)`, and must already
-    /// include the `1/n²` inverse scaling. Returns `Σ|F|²·(1 − n⁴|H|²)` over
-    /// the spectrum `F`, i.e. `n²/dx²` times the power the transfer function
+    /// Fused convolution step with an *even* transfer function: forward
+    /// FFT, multiply by `H`, inverse FFT. `H` must satisfy
+    /// `H[ky][kx] = H[kx][ky] = H[n−ky][kx] = H[ky][n−kx]` (it depends only
+    /// on `fx²` and `fy²`, as every propagator of a round-symmetric kernel
+    /// does) and is passed as its `(n/2+1) × (n/2+1)` quadrant `quadrant`,
+    /// indexed by `min(k, n−k)` on both axes, in FFT order and including
+    /// the `1/n²` inverse scaling. Returns `Σ|F|²·(1 − n⁴|H|²)` over the
+    /// spectrum `F`, i.e. `n²/dx²` times the power the transfer function
     /// removed (zero for an all-pass `H`).
     ///
+    /// The multiply happens inside the column pass, between the forward and
+    /// inverse column FFTs of each gathered strip; column `kx` of `H` is row
+    /// `min(kx, n−kx)` of the quadrant, read contiguously.
+    ///
     /// # Panics
-    /// If `data` or `transfer` are not `n × n` and contiguous.
-    pub fn convolve(&self, data: &mut Array2<Complex64>, transfer: &Array2<Complex64>) -> f64 {
+    /// If `data` is not `n × n` or `quadrant` not `(n/2+1) × (n/2+1)`, or
+    /// either is not contiguous.
+    pub fn convolve(&self, data: &mut Array2<Complex64>, quadrant: &Array2<Complex64>) -> f64 {
         let n = self.n;
-        assert_eq!(transfer.dim(), (n, n), "transfer function must be {n}x{n}");
-        let h = transfer
+        let m = n / 2 + 1;
+        assert_eq!(
+            quadrant.dim(),
+            (m, m),
+            "transfer-function quadrant must be {m}x{m}"
+        );
+        let h = quadrant
             .as_slice()
             .expect("transfer function must be contiguous");
         let full = (n * n) as f64;
@@ -141,9 +156,15 @@ impl Fft2 {
             &self.forward,
             Some(&self.inverse),
             |ix, column: &mut [Complex64]| -> f64 {
+                let qx = ix.min(n - ix);
+                let row = &h[qx * m..(qx + 1) * m];
+                let (low, high) = column.split_at_mut(m.min(n));
                 let mut lost = 0.0;
-                for (iy, v) in column.iter_mut().enumerate() {
-                    let t = h[iy * n + ix];
+                for (v, &t) in low.iter_mut().zip(row) {
+                    lost += v.norm_sqr() * (1.0 - full2 * t.norm_sqr());
+                    *v *= t;
+                }
+                for (v, &t) in high.iter_mut().zip(row[1..=n - m.min(n)].iter().rev()) {
                     lost += v.norm_sqr() * (1.0 - full2 * t.norm_sqr());
                     *v *= t;
                 }
@@ -156,6 +177,17 @@ impl Fft2 {
 
     /// Transforms every row in place, in parallel bands of rows.
     fn rows(&self, data: &mut Array2<Complex64>, fft: &Arc<dyn Fft<f64>>) {
+        self.rows_scaled(data, fft, None);
+    }
+
+    /// [`Fft2::rows`], then multiplies each band by `scale` while it is in
+    /// cache.
+    fn rows_scaled(
+        &self,
+        data: &mut Array2<Complex64>,
+        fft: &Arc<dyn Fft<f64>>,
+        scale: Option<f64>,
+    ) {
         let n = self.n;
         assert_eq!(data.dim(), (n, n), "array must be {n}x{n}");
         let slice = data
@@ -163,9 +195,16 @@ impl Fft2 {
             .expect("field arrays are contiguous in standard layout");
         let rows_per_band = (n / (4 * rayon::current_num_threads().max(1))).clamp(1, 64);
         slice.par_chunks_mut(n * rows_per_band).for_each(|band| {
-            with_buffer(&FFT_SCRATCH, self.scratch_len, |scratch| {
-                fft.process_with_scratch(band, scratch)
-            })
+            with_buffer(&FFT_SCRATCH, self.scratch_len, |scratch| match scale {
+                None => fft.process_with_scratch(band, scratch),
+                Some(scale) => {
+                    // Row by row, so that the scaling finds the row in L1/L2.
+                    for row in band.chunks_exact_mut(n) {
+                        fft.process_with_scratch(row, scratch);
+                        row.iter_mut().for_each(|v| *v *= scale);
+                    }
+                }
+            });
         });
     }
 
@@ -213,20 +252,78 @@ impl Fft2 {
     }
 }
 
+/// Rows handled together by [`gather`] and [`scatter`]: four complex f64
+/// samples are one 64-byte cache line of a gathered column.
+const ROW_BLOCK: usize = 4;
+
 /// Copies a strip of columns into `buf`, column-major with `stride`.
+///
+/// Works on blocks of [`ROW_BLOCK`] rows so that each write into `buf`
+/// fills a whole cache line of one gathered column.
 fn gather(strip: &ArrayViewMut2<Complex64>, buf: &mut [Complex64], stride: usize) {
-    for (iy, row) in strip.axis_iter(Axis(0)).enumerate() {
-        for (c, v) in row.iter().enumerate() {
-            buf[c * stride + iy] = *v;
+    let width = strip.ncols();
+    for (block_index, block) in strip.axis_chunks_iter(Axis(0), ROW_BLOCK).enumerate() {
+        let iy = block_index * ROW_BLOCK;
+        if block.nrows() == ROW_BLOCK {
+            let r0 = row_slice(&block, 0);
+            let r1 = row_slice(&block, 1);
+            let r2 = row_slice(&block, 2);
+            let r3 = row_slice(&block, 3);
+            for (c, column) in buf.chunks_mut(stride).take(width).enumerate() {
+                let dst = &mut column[iy..iy + ROW_BLOCK];
+                dst[0] = r0[c];
+                dst[1] = r1[c];
+                dst[2] = r2[c];
+                dst[3] = r3[c];
+            }
+        } else {
+            for (r, row) in block.axis_iter(Axis(0)).enumerate() {
+                for (c, v) in row.iter().enumerate() {
+                    buf[c * stride + iy + r] = *v;
+                }
+            }
         }
     }
 }
 
+/// Row `r` of a block of a strip as a slice (rows of a standard-layout
+/// array are contiguous).
+fn row_slice<'a>(block: &'a ndarray::ArrayView2<'_, Complex64>, r: usize) -> &'a [Complex64] {
+    block
+        .row(r)
+        .to_slice()
+        .expect("rows of a standard-layout array are contiguous")
+}
+
 /// Inverse of [`gather`].
 fn scatter(buf: &[Complex64], strip: &mut ArrayViewMut2<Complex64>, stride: usize) {
-    for (iy, mut row) in strip.axis_iter_mut(Axis(0)).enumerate() {
-        for (c, v) in row.iter_mut().enumerate() {
-            *v = buf[c * stride + iy];
+    let width = strip.ncols();
+    for (block_index, mut block) in strip.axis_chunks_iter_mut(Axis(0), ROW_BLOCK).enumerate() {
+        let iy = block_index * ROW_BLOCK;
+        if block.nrows() == ROW_BLOCK {
+            let mut rows = block.outer_iter_mut().map(|row| {
+                row.into_slice()
+                    .expect("rows of a standard-layout array are contiguous")
+            });
+            let (r0, r1, r2, r3) = (
+                rows.next().expect("4 rows"),
+                rows.next().expect("4 rows"),
+                rows.next().expect("4 rows"),
+                rows.next().expect("4 rows"),
+            );
+            for (c, column) in buf.chunks(stride).take(width).enumerate() {
+                let src = &column[iy..iy + ROW_BLOCK];
+                r0[c] = src[0];
+                r1[c] = src[1];
+                r2[c] = src[2];
+                r3[c] = src[3];
+            }
+        } else {
+            for (r, mut row) in block.axis_iter_mut(Axis(0)).enumerate() {
+                for (c, v) in row.iter_mut().enumerate() {
+                    *v = buf[c * stride + iy + r];
+                }
+            }
         }
     }
 }

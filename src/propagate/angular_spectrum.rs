@@ -10,6 +10,11 @@
 //! would cross half the window within `z` and wrap around. Sources should
 //! therefore fill at most the central half of the grid. The `1/n²` inverse
 //! scaling is folded into the stored transfer function.
+//!
+//! Storage: `H` depends only on `fx²` and `fy²`, so only the quadrant
+//! indexed by `min(k, n−k)` is stored — `(n/2+1)²` values, a quarter of a
+//! field — and [`Fft2::convolve`] multiplies by it inside its column pass,
+//! while each strip of columns is in cache.
 
 use ndarray::{Array2, Axis};
 use num_complex::Complex64;
@@ -64,23 +69,25 @@ impl AngularSpectrum {
             ));
         }
         let n = grid.n();
-        let f = grid.freqs_per_m();
+        let m = n / 2 + 1;
+        // |f| for quadrant index q = min(k, n − k): bit-identical to |f[k]|.
+        let f: Vec<f64> = grid.freqs_per_m()[..m].to_vec();
         let limit = band_limit_per_m(grid.width_m(), wavelength_m, z_m);
         let inv_lambda = 1.0 / wavelength_m;
         let scale = 1.0 / (n * n) as f64;
         let two_pi_z = 2.0 * std::f64::consts::PI * z_m;
-        let mut transfer = Array2::zeros((n, n));
+        let mut transfer = Array2::zeros((m, m));
         transfer
             .axis_iter_mut(Axis(0))
             .into_par_iter()
             .enumerate()
-            .for_each(|(iy, mut row)| {
-                let fy = f[iy];
+            .for_each(|(qy, mut row)| {
+                let fy = f[qy];
                 if fy.abs() > limit {
                     return;
                 }
-                for (ix, h) in row.iter_mut().enumerate() {
-                    let fx = f[ix];
+                for (qx, h) in row.iter_mut().enumerate() {
+                    let fx = f[qx];
                     if fx.abs() > limit {
                         continue;
                     }
@@ -106,7 +113,9 @@ impl AngularSpectrum {
     pub fn band_limit_per_m(&self) -> f64 {
         self.band_limit_per_m
     }
-    /// The stored transfer function, FFT order, including the `1/n²` factor.
+    /// The stored transfer function: the `(n/2+1) × (n/2+1)` quadrant
+    /// indexed by `min(k, n−k)` along each axis (`H` is even in `fx` and
+    /// `fy`), including the `1/n²` factor. See [`Fft2::convolve`].
     pub fn transfer(&self) -> &Array2<Complex64> {
         &self.transfer
     }
