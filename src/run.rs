@@ -108,15 +108,21 @@ pub fn memory_limit_bytes() -> f64 {
 /// Refuses plans whose estimated memory exceeds the limit.
 ///
 /// # Errors
-/// [`Error::TooLarge`] with both numbers.
+/// [`Error::Layout`] naming `grid.n`, wrapping an [`Error::TooLarge`] message
+/// with both numbers.
 pub fn check_memory(plan: &Plan) -> Result<()> {
     let needed = estimate_memory_bytes(plan);
     let limit = memory_limit_bytes();
     if needed > limit {
-        return Err(Error::TooLarge {
+        let too_large = Error::TooLarge {
             what: format!("a {n}x{n} grid", n = plan.grid.n()),
             needed_mib: needed / 1048576.0,
             limit_mib: limit / 1048576.0,
+        };
+        return Err(Error::Layout {
+            path: plan.path.clone(),
+            line: plan.grid_line,
+            message: format!("grid.n: {too_large}"),
         });
     }
     Ok(())
@@ -157,6 +163,16 @@ pub fn plan_warnings(plan: &Plan) -> Result<Vec<String>> {
     let trace = paraxial::trace(plan);
     let factor = source_width_factor(plan, &source);
     let mut warnings = plan.warnings.clone();
+    let captured = plan
+        .source
+        .captured_fraction(plan.grid, plan.wavelength_m)?;
+    if 1.0 - captured > BORDER_WARNING_FRACTION {
+        warnings.push(format!(
+            "source: the {} window holds only {:.6} of the source power; the rest is not simulated (the field is not rescaled to make up for it): enlarge the window n·dx",
+            fmt_len(plan.grid.width_m()),
+            captured
+        ));
+    }
     warnings.extend(advisor::advise(plan, trace.as_ref(), factor));
     Ok(warnings)
 }
@@ -449,6 +465,22 @@ fn measure_probe(
         centre_w_m2: r.centre_w_m2,
         null_depth: r.null_depth,
     });
+    // Elements upstream that change the beam's shape in ways the paraxial
+    // design does not describe at all (a vortex or a mask): the width
+    // comparison is then not a design check, and says so.
+    let reshaping: Vec<String> = plan
+        .steps
+        .iter()
+        .take(step.index)
+        .filter(|s| matches!(s.op, Operation::Vortex(_) | Operation::Mask(_)))
+        .map(|s| format!("element[{}] {}", s.index, s.kind()))
+        .collect();
+    if paraxial_point.is_some() && !reshaping.is_empty() {
+        warnings.push(format!(
+            "the paraxial prediction ignores {}: width_deviation here is not a design check (a vortex or mask changes the mode content; a spiral plate on a Gaussian has an unbounded second moment, so D4σ depends on the window)",
+            reshaping.join(", ")
+        ));
+    }
     let paraxial = paraxial_point.map(|p| {
         let predicted = p.w_m * width_factor;
         let simulated = second_moment_radius(iso.d4sigma_m);
@@ -569,7 +601,12 @@ fn measure_probe(
                         d4sigma_m: &record.d4sigma_m,
                         fit: caustic_fit_in_absolute_z(&c, step.z_m),
                         m2: record.m2,
-                        title: &format!("{}: caustic", spec.name),
+                        title: &format!(
+                            "{} — caustic about {} at z = {}",
+                            plan.title,
+                            spec.name,
+                            fmt_len(step.z_m)
+                        ),
                     },
                 )?;
                 files.insert("caustic".to_string(), name);
@@ -590,6 +627,19 @@ fn measure_probe(
             crate::report::png::write_intensity_png(&dir.join(&name), field, &title)?;
             files.insert("intensity".to_string(), name);
         }
+        if spec.save_intensity_log {
+            let name = format!("{}_intensity_log.png", spec.name);
+            crate::report::png::write_intensity_png_with(
+                &dir.join(&name),
+                field,
+                &title,
+                &crate::report::png::ImageOptions {
+                    window: None,
+                    scale: crate::report::png::IrradianceScale::Logarithmic { decades: 4.0 },
+                },
+            )?;
+            files.insert("intensity_log".to_string(), name);
+        }
         if spec.save_phase {
             let name = format!("{}_phase.png", spec.name);
             crate::report::png::write_phase_png(&dir.join(&name), field, &title)?;
@@ -606,14 +656,16 @@ fn measure_probe(
             // For a Gaussian source, the paraxial Gaussian with this probe's
             // power is drawn for comparison.
             let reference: Option<Vec<f64>> = match (&paraxial, plan.source.m2()) {
-                (Some(p), Some([mx, my])) if mx == 1.0 && my == 1.0 => Some(
-                    r.iter()
-                        .map(|&r| {
-                            2.0 * power_w / (std::f64::consts::PI * p.w_m * p.w_m)
-                                * (-2.0 * r * r / (p.w_m * p.w_m)).exp()
-                        })
-                        .collect(),
-                ),
+                (Some(p), Some([mx, my])) if mx == 1.0 && my == 1.0 && reshaping.is_empty() => {
+                    Some(
+                        r.iter()
+                            .map(|&r| {
+                                2.0 * power_w / (std::f64::consts::PI * p.w_m * p.w_m)
+                                    * (-2.0 * r * r / (p.w_m * p.w_m)).exp()
+                            })
+                            .collect(),
+                    )
+                }
                 _ => None,
             };
             crate::report::plot::write_radial_profile_plot(
@@ -623,7 +675,12 @@ fn measure_probe(
                 reference
                     .as_deref()
                     .map(|v| ("paraxial Gaussian, same power", v)),
-                &format!("{}: radial profile about the centroid", spec.name),
+                &format!(
+                    "{} — {} at z = {}: radial profile about the centroid",
+                    plan.title,
+                    spec.name,
+                    fmt_len(step.z_m)
+                ),
             )?;
             files.insert("profile".to_string(), name);
         }

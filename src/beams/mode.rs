@@ -129,18 +129,27 @@ impl Superposition {
     /// [`Error::Physics`] if there are no terms or the sum vanishes; also
     /// as [`Field::zeros`].
     pub fn sample(&self, grid: Grid, z_m: f64, power_w: f64) -> Result<Field> {
+        let mut field = self.sample_unnormalised(grid, z_m)?;
+        field.normalise_to(power_w)?;
+        Ok(field)
+    }
+
+    /// Samples `Σ weight·mode` at `z_m` as it stands (unit-power modes times
+    /// their weights), without normalising on the grid.
+    ///
+    /// # Errors
+    /// [`Error::Physics`] if there are no terms; also as [`Field::zeros`].
+    pub fn sample_unnormalised(&self, grid: Grid, z_m: f64) -> Result<Field> {
         let first = self
             .terms
             .first()
             .ok_or_else(|| Error::Physics("a superposition needs at least one term".into()))?;
-        let mut field = Field::from_fn(grid, first.0.beam.wavelength_m(), |x, y| {
+        Field::from_fn(grid, first.0.beam.wavelength_m(), |x, y| {
             self.terms
                 .iter()
                 .map(|(mode, weight)| mode.value_at(x, y, z_m) * weight)
                 .sum()
-        })?;
-        field.normalise_to(power_w)?;
-        Ok(field)
+        })
     }
 }
 

@@ -96,6 +96,15 @@ pub fn advise(
         }
     };
     check_resolution(&mut out, "source", radius(source), plan.grid.spacing_m());
+    if plan.grid.width_m() < WINDOW_RADII * radius(source) {
+        out.push(format!(
+            "source: the beam radius {} needs a window of at least {} (edge at ±3 radii) but the window is {}; use n ≥ {} at this spacing",
+            fmt_len(radius(source)),
+            fmt_len(WINDOW_RADII * radius(source)),
+            fmt_len(plan.grid.width_m()),
+            fft_friendly((WINDOW_RADII * radius(source) / plan.grid.spacing_m()).ceil() as usize)
+        ));
+    }
     let mut before = *source;
     for (step, after) in plan.steps.iter().zip(points) {
         let at = format!("element[{}] ({})", step.index, step.kind());
@@ -189,18 +198,64 @@ pub fn advise(
             }
             Operation::Vortex(v) => {
                 // exp(ilφ) has local frequency |l|/(2πr): it aliases for
-                // r < |l|·dx/π. Compare with the LG ring radius w·sqrt(|l|/2).
+                // r < |l|·dx/π. Warn when the beam arriving (a Gaussian of
+                // second-moment radius W about the axis) puts more than
+                // 1e-3 of its power inside that disc.
                 let l = v.charge.unsigned_abs() as f64;
                 let r_alias = l * grid.spacing_m() / std::f64::consts::PI;
-                let ring = before.w_m * (l / 2.0).sqrt();
-                if r_alias > 0.25 * ring {
+                let inside = 1.0 - (-2.0 * r_alias * r_alias / (w_in * w_in)).exp();
+                if inside > 1e-3 {
                     out.push(format!(
-                        "{at}: the charge-{} spiral phase aliases within r = {} of its centre, {:.0} % of the expected ring radius {}; use spacing ≤ {}",
+                        "{at}: the charge-{} spiral phase aliases within r = {} of its centre, where the beam carries {:.2} % of its power; use spacing ≤ {}",
                         v.charge,
                         fmt_len(r_alias),
-                        100.0 * r_alias / ring,
-                        fmt_len(ring),
-                        fmt_len(0.25 * ring * std::f64::consts::PI / l)
+                        100.0 * inside,
+                        fmt_len(0.02236 * std::f64::consts::PI * w_in / l)
+                    ));
+                }
+            }
+            Operation::Tilt(t) => {
+                // sin θ plus the beam's own half-angle must stay below
+                // λ/(2dx) (PHYSICS.md §5).
+                let beam_angle = lambda / (std::f64::consts::PI * w_in);
+                let limit = lambda / (2.0 * grid.spacing_m());
+                for (axis, angle) in [("x", t.x_rad), ("y", t.y_rad)] {
+                    let needed = angle.sin().abs() + beam_angle;
+                    if angle != 0.0 && needed > limit {
+                        out.push(format!(
+                            "{at}: the tilt {axis} = {:.4} mrad plus the beam's half-angle {:.4} mrad exceeds the grid's angular range λ/(2dx) = {:.4} mrad, so the tilted field aliases; use spacing ≤ {}",
+                            angle * 1e3,
+                            beam_angle * 1e3,
+                            limit * 1e3,
+                            fmt_len(lambda / (2.0 * needed))
+                        ));
+                    }
+                }
+            }
+            Operation::Aberration(a) => {
+                // Largest phase gradient |∇W|/λ over the part of the disc the
+                // beam fills (r ≤ 3W), sampled on a polar grid.
+                let reach = (3.0 * w_in).min(a.radius_m);
+                let mut slope_max: f64 = 0.0;
+                let h = 1e-4 * a.radius_m;
+                for ir in 1..=32 {
+                    let r = reach * ir as f64 / 32.0 - h;
+                    for it in 0..64 {
+                        let th = 2.0 * std::f64::consts::PI * it as f64 / 64.0;
+                        let (x, y) = (a.offset_m[0] + r * th.cos(), a.offset_m[1] + r * th.sin());
+                        let gx = (a.path_m(x + h, y) - a.path_m(x - h, y)) / (2.0 * h);
+                        let gy = (a.path_m(x, y + h) - a.path_m(x, y - h)) / (2.0 * h);
+                        slope_max = slope_max.max(gx.hypot(gy));
+                    }
+                }
+                let local = slope_max / lambda;
+                if local > grid.nyquist_per_m() {
+                    out.push(format!(
+                        "{at}: the aberration's phase aliases: its steepest wavefront slope {:.3e} rad gives a local frequency {:.3e} /m, above the Nyquist limit 1/(2dx) = {:.3e} /m; use spacing ≤ {}",
+                        slope_max,
+                        local,
+                        grid.nyquist_per_m(),
+                        fmt_len(lambda / (2.0 * slope_max))
                     ));
                 }
             }

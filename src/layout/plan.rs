@@ -31,6 +31,8 @@ pub struct Plan {
     pub power_w: f64,
     /// Grid at the source plane.
     pub grid: Grid,
+    /// Line of `grid.n` in the layout, for messages.
+    pub grid_line: Option<usize>,
     /// The source field.
     pub source: Source,
     /// The elements in order.
@@ -74,31 +76,64 @@ pub enum Source {
 }
 
 impl Source {
-    /// Samples the source on `grid`, normalised to `power_w`.
+    /// Samples the source on `grid` carrying `power_w`.
+    ///
+    /// Closed-form sources (modes and superpositions) carry `power_w` in
+    /// their analytic normalisation, so a window too small for the beam
+    /// shows up as missing power rather than being rescaled into a too-high
+    /// irradiance; [`Source::captured_fraction`] says how much the grid
+    /// holds. Sampled sources (flat-top, files) are normalised on the grid.
     ///
     /// # Errors
     /// [`crate::Error::Physics`] if the source has no power on the grid.
     pub fn field(&self, grid: Grid, wavelength_m: f64, power_w: f64) -> Result<Field> {
-        let mut field = match self {
-            Source::Mode { mode, waist_at_m } => mode.sample(grid, -waist_at_m, 1.0)?,
+        let field = match self {
+            Source::Mode { mode, waist_at_m } => mode.sample(grid, -waist_at_m, power_w)?,
             Source::Superposition {
                 modes, waist_at_m, ..
-            } => modes.sample(grid, -waist_at_m, 1.0)?,
+            } => {
+                let scale = (power_w / superposition_power(modes)).sqrt();
+                let mut field = modes.sample_unnormalised(grid, -waist_at_m)?;
+                field.values.mapv_inplace(|v| v * scale);
+                field
+            }
             Source::FlatTop { radius_m } => {
                 let disc = Aperture::new(crate::optics::ApertureShape::Circle {
                     radius_m: *radius_m,
                 })?;
                 let dx = grid.spacing_m();
-                Field::from_fn(grid, wavelength_m, |x, y| {
+                let mut field = Field::from_fn(grid, wavelength_m, |x, y| {
                     Complex64::new(disc.pixel_transmission(x, y, dx), 0.0)
-                })?
+                })?;
+                field.normalise_to(power_w)?;
+                field
             }
             Source::Sampled { values, .. } => {
-                Field::from_values(grid, wavelength_m, values.clone())?
+                let mut field = Field::from_values(grid, wavelength_m, values.clone())?;
+                field.normalise_to(power_w)?;
+                field
             }
         };
-        field.normalise_to(power_w)?;
+        if !(field.power_w() > 0.0) {
+            return Err(crate::Error::Physics(
+                "the source has no power on the grid: is the window far from the beam?".into(),
+            ));
+        }
         Ok(field)
+    }
+
+    /// Fraction of a closed-form source's power that the grid holds
+    /// (1 for sampled sources, which are normalised on the grid).
+    ///
+    /// # Errors
+    /// As [`Source::field`].
+    pub fn captured_fraction(&self, grid: Grid, wavelength_m: f64) -> Result<f64> {
+        match self {
+            Source::Mode { .. } | Source::Superposition { .. } => {
+                Ok(self.field(grid, wavelength_m, 1.0)?.power_w())
+            }
+            _ => Ok(1.0),
+        }
     }
 
     /// The embedded Gaussian and its waist position, for the paraxial check
@@ -228,8 +263,10 @@ pub struct ProbeSpec {
     pub save_phase: bool,
     /// Write the complex field as NPY.
     pub save_field: bool,
-    /// Write a radial-profile plot.
+    /// Write a radial-profile plot (and put the profiles in the report).
     pub save_profile: bool,
+    /// Write an irradiance PNG on a logarithmic scale (4 decades).
+    pub save_intensity_log: bool,
     /// Modal decomposition.
     pub modes: Option<ModesSpec>,
     /// Through-focus scan and M² fit.
@@ -249,4 +286,18 @@ pub struct ModesSpec {
     pub waist_m: Option<f64>,
     /// Absolute z of the basis waist from the source plane (None: best fit).
     pub waist_at_m: Option<f64>,
+}
+
+/// Analytic power of a superposition of unit-power modes sharing one
+/// waist: the modes are orthonormal, so it is `Σ_shape |Σ weights|²`
+/// (repeated shapes add coherently).
+fn superposition_power(modes: &Superposition) -> f64 {
+    let mut by_shape: Vec<(crate::beams::ModeShape, Complex64)> = Vec::new();
+    for (mode, w) in &modes.terms {
+        match by_shape.iter_mut().find(|(s, _)| *s == mode.shape) {
+            Some((_, total)) => *total += w,
+            None => by_shape.push((mode.shape, *w)),
+        }
+    }
+    by_shape.iter().map(|(_, w)| w.norm_sqr()).sum()
 }

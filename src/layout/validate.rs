@@ -74,18 +74,11 @@ pub fn load(path: &Path) -> Result<Plan> {
 pub fn parse(text: &str, path: &Path) -> Result<Plan> {
     let ctx = Ctx { text, path };
     let file: LayoutFile = toml::from_str(text).map_err(|e| {
-        let line = e.span().map(|s| ctx.line_of(s.start));
+        let (line, message) = ctx.describe_toml_error(&e);
         Error::Layout {
             path: path.to_path_buf(),
             line,
-            // toml's messages may span lines; keep errors to one line.
-            message: e
-                .message()
-                .lines()
-                .map(str::trim)
-                .filter(|l| !l.is_empty())
-                .collect::<Vec<_>>()
-                .join("; "),
+            message,
         }
     })?;
     ctx.plan(file)
@@ -97,6 +90,152 @@ struct Ctx<'a> {
 }
 
 impl Ctx<'_> {
+    /// Rewrites a TOML/serde error as `key.path: message` in the words of
+    /// this format (one line, units and choices named).
+    fn describe_toml_error(&self, e: &toml::de::Error) -> (Option<usize>, String) {
+        let raw = e
+            .message()
+            .lines()
+            .map(str::trim)
+            .filter(|l| !l.is_empty())
+            .collect::<Vec<_>>()
+            .join("; ");
+        let Some(span) = e.span() else {
+            return (None, raw);
+        };
+        let line = self.line_of(span.start);
+        let key = self.key_path_at(span.start);
+        let last_key = key.rsplit('.').next().unwrap_or("").to_string();
+        let message = if raw.starts_with("missing unit") {
+            let number = raw
+                .split("e.g. \"")
+                .nth(1)
+                .and_then(|t| t.split_whitespace().next())
+                .unwrap_or("1")
+                .to_string();
+            let unit = if key.contains("zernike.") {
+                "wave"
+            } else {
+                match last_key.as_str() {
+                    "wavelength" => "nm",
+                    "power" => "W",
+                    "x" | "y" if key.starts_with("element") => "mrad",
+                    _ => "mm",
+                }
+            };
+            format!("missing unit: write it as a string with a unit, e.g. \"{number} {unit}\"")
+        } else if let Some(rest) = raw.strip_prefix("unknown field `") {
+            let name = rest.split('`').next().unwrap_or("");
+            let mut choices: Vec<&str> = rest
+                .split("expected one of ")
+                .nth(1)
+                .map(|l| l.split(", ").map(|c| c.trim_matches(['`', ' '])).collect())
+                .unwrap_or_default();
+            // Inside an element, offer only the keys of its kind.
+            if let Some(kind) = self.element_kind_at(span.start) {
+                let allowed = allowed_keys(kind);
+                if !allowed.is_empty() {
+                    choices = ["kind", "name"]
+                        .into_iter()
+                        .chain(allowed.iter().copied())
+                        .collect();
+                }
+            }
+            let hint = closest(name, &choices)
+                .map(|c| format!(" (did you mean '{c}'?)"))
+                .unwrap_or_default();
+            format!(
+                "unknown key '{name}'{hint}; keys allowed here: {}",
+                choices.join(", ")
+            )
+        } else if let Some(rest) = raw.strip_prefix("missing field `") {
+            format!("missing key '{}'", rest.split('`').next().unwrap_or(""))
+        } else if raw.starts_with("invalid type:") {
+            let found = raw
+                .trim_start_matches("invalid type: ")
+                .split(", expected")
+                .next()
+                .unwrap_or("")
+                .replace('`', "");
+            let expected = match raw.rsplit("expected ").next().unwrap_or("") {
+                "i64" => "an integer".to_string(),
+                "a boolean" | "bool" => "true or false".to_string(),
+                other => other.replace('`', ""),
+            };
+            format!("expected {expected}, found {found}")
+        } else if let Some(rest) = raw.strip_prefix("invalid length ") {
+            let found = rest.split(',').next().unwrap_or("?");
+            format!("expected two values [x, y], found {found}")
+        } else {
+            raw
+        };
+        let message = if key.is_empty() {
+            message
+        } else {
+            format!("{key}: {message}")
+        };
+        (Some(line), message)
+    }
+
+    /// The `kind` written in the `[[element]]` table that contains byte `at`.
+    fn element_kind_at(&self, at: usize) -> Option<&'static str> {
+        let start = self.text[..at.min(self.text.len())].rfind("[[element]]")?;
+        let rest = &self.text[start + "[[element]]".len()..];
+        let end = rest.find("\n[").unwrap_or(rest.len());
+        rest[..end].lines().find_map(|l| {
+            let (k, v) = l.split_once('=')?;
+            if k.trim() != "kind" {
+                return None;
+            }
+            let v = v.trim().trim_matches('"');
+            ELEMENT_KINDS.iter().copied().find(|kind| *kind == v)
+        })
+    }
+
+    /// The key path (`element[2].offset`, `source.terms`, `beam.power`) of
+    /// the value at byte `at`, found from the table headers and the key on
+    /// its line.
+    fn key_path_at(&self, at: usize) -> String {
+        let before = &self.text[..at.min(self.text.len())];
+        let mut section = String::new();
+        let mut elements = 0usize;
+        for l in before.lines() {
+            let t = l.trim();
+            if t.starts_with("[[element]]") {
+                elements += 1;
+                section = format!("element[{}]", elements - 1);
+            } else if t.starts_with('[') && !t.starts_with("[[") {
+                section = t.trim_matches(['[', ']']).trim().to_string();
+            }
+        }
+        let line_start = before.rfind('\n').map_or(0, |i| i + 1);
+        let head = &before[line_start..];
+        let mut keys: Vec<String> = Vec::new();
+        // Outer key before '=' at the line start, then inner keys of inline tables.
+        for part in head.split('{') {
+            if let Some(eq) = part.rfind('=') {
+                let k = part[..eq]
+                    .rsplit(',')
+                    .next()
+                    .unwrap_or("")
+                    .trim()
+                    .trim_matches('"');
+                if !k.is_empty() && !k.starts_with('[') {
+                    keys.push(k.to_string());
+                }
+            }
+        }
+        let mut path = section;
+        for k in keys {
+            if path.is_empty() {
+                path = k;
+            } else {
+                path = format!("{path}.{k}");
+            }
+        }
+        path
+    }
+
     fn line_of(&self, byte: usize) -> usize {
         self.text[..byte.min(self.text.len())]
             .bytes()
@@ -210,6 +349,7 @@ impl Ctx<'_> {
             wavelength_m,
             power_w,
             grid,
+            grid_line: Some(self.line_of(file.grid.n.span().start)),
             source,
             steps,
             warnings: Vec::new(),
@@ -769,6 +909,7 @@ impl Ctx<'_> {
             save_phase: false,
             save_field: false,
             save_profile: false,
+            save_intensity_log: false,
             modes: None,
             caustic: None,
             strehl: e.strehl.unwrap_or(false),
@@ -779,11 +920,12 @@ impl Ctx<'_> {
                 "phase" => spec.save_phase = true,
                 "field" => spec.save_field = true,
                 "profile" => spec.save_profile = true,
+                "intensity-log" => spec.save_intensity_log = true,
                 other => {
                     return Err(self.err(
                         Some(self.line_of(s.span().start)),
                         format!(
-                        "{}: unknown item '{other}' (expected intensity, phase, field, profile)",
+                        "{}: unknown item '{other}' (expected intensity, intensity-log, phase, field, profile)",
                         key("save")
                     ),
                     ))
@@ -871,5 +1013,98 @@ fn merge_lenses_into_fresnel(steps: &mut [Step]) {
                 reason.push_str("; the preceding paraxial lens is applied inside this step's chirp, so its phase is never sampled on the grid");
             }
         }
+    }
+}
+
+/// The choice closest to `name` by edit distance (insertions, deletions,
+/// substitutions and adjacent transpositions), if within 2 edits.
+fn closest<'a>(name: &str, choices: &[&'a str]) -> Option<&'a str> {
+    fn distance(a: &str, b: &str) -> usize {
+        let a: Vec<char> = a.chars().collect();
+        let b: Vec<char> = b.chars().collect();
+        let mut d = vec![vec![0usize; b.len() + 1]; a.len() + 1];
+        for (i, row) in d.iter_mut().enumerate() {
+            row[0] = i;
+        }
+        for j in 0..=b.len() {
+            d[0][j] = j;
+        }
+        for i in 1..=a.len() {
+            for j in 1..=b.len() {
+                let cost = usize::from(a[i - 1] != b[j - 1]);
+                let mut v = (d[i - 1][j] + 1)
+                    .min(d[i][j - 1] + 1)
+                    .min(d[i - 1][j - 1] + cost);
+                if i > 1 && j > 1 && a[i - 1] == b[j - 2] && a[i - 2] == b[j - 1] {
+                    v = v.min(d[i - 2][j - 2] + 1);
+                }
+                d[i][j] = v;
+            }
+        }
+        d[a.len()][b.len()]
+    }
+    choices
+        .iter()
+        .map(|c| (distance(name, c), *c))
+        .filter(|(d, _)| *d <= 2)
+        .min()
+        .map(|(_, c)| c)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn err(text: &str) -> String {
+        parse(text, Path::new("t.toml")).unwrap_err().to_string()
+    }
+
+    const HEAD: &str = "[beam]\nwavelength = \"1064 nm\"\n[grid]\nn = 64\nspacing = \"10 um\"\n[source]\nkind = \"gaussian\"\nwaist = \"0.1 mm\"\n";
+
+    #[test]
+    fn toml_errors_name_the_key_and_the_unit() {
+        let e = err(&HEAD.replace("\"1064 nm\"", "1064"));
+        assert!(
+            e.contains("line 2: beam.wavelength: missing unit") && e.contains("\"1064 nm\""),
+            "{e}"
+        );
+        let e = err(&format!(
+            "{HEAD}[[element]]\nkind = \"space\"\nlenght = \"1 mm\"\n"
+        ));
+        assert!(
+            e.contains("element[0].lenght") || e.contains("element[0]"),
+            "{e}"
+        );
+        assert!(e.contains("did you mean 'length'"), "{e}");
+        let e = err(&format!(
+            "{HEAD}[[element]]\nkind = \"vortex\"\ncharge = 1.5\n"
+        ));
+        assert!(
+            e.contains("element[0].charge: expected an integer, found floating point 1.5"),
+            "{e}"
+        );
+        let e = err(&format!("{HEAD}[[element]]\nkind = \"aberration\"\nradius = \"1 mm\"\nzernike = {{ 4 = 0.1 }}\n"));
+        assert!(
+            e.contains("element[0].zernike.4: missing unit") && e.contains("\"0.1 wave\""),
+            "{e}"
+        );
+        let e = err(&format!("{HEAD}[[element]]\nkind = \"aperture\"\nshape = \"circle\"\nradius = \"1 mm\"\noffset = [\"1 mm\"]\n"));
+        assert!(
+            e.contains("element[0].offset: expected two values [x, y], found 1"),
+            "{e}"
+        );
+        let e = err(&HEAD
+            .replace("\"10 um\"", "10")
+            .replace("[beam]", "[beam]\npower = 2"));
+        assert!(
+            e.contains("beam.power: missing unit") && e.contains("\"2 W\""),
+            "{e}"
+        );
+    }
+
+    #[test]
+    fn closest_key() {
+        assert_eq!(closest("lenght", &["length", "method"]), Some("length"));
+        assert_eq!(closest("zzz", &["length", "method"]), None);
     }
 }

@@ -270,8 +270,8 @@ pub struct ProbeRecord {
     /// Ring metrics for ring-shaped beams.
     #[serde(skip_serializing_if = "Option::is_none")]
     pub ring: Option<RingRecord>,
-    /// Paraxial prediction.
-    #[serde(skip_serializing_if = "Option::is_none")]
+    /// Paraxial prediction (null when the source has no embedded Gaussian:
+    /// flat-top and sampled sources).
     pub paraxial: Option<ParaxialRecord>,
     /// Strehl ratio against the path without aberrations.
     #[serde(skip_serializing_if = "Option::is_none")]

@@ -168,7 +168,13 @@ fn run_layout(
 pub fn strict_failures(plan: &Plan, report: &Report, tolerance: f64) -> Vec<String> {
     let mut out = Vec::new();
     for probe in &report.probes {
-        let Some(p) = &probe.paraxial else { continue };
+        let Some(p) = &probe.paraxial else {
+            eprintln!(
+                "beamwright: strict: probe '{}' not checked: the source has no paraxial prediction (flat-top or sampled source)",
+                probe.name
+            );
+            continue;
+        };
         if p.width_deviation.abs() <= tolerance {
             continue;
         }
@@ -179,22 +185,21 @@ pub fn strict_failures(plan: &Plan, report: &Report, tolerance: f64) -> Vec<Stri
             .collect();
         let mut reasons = Vec::new();
         for e in &upstream {
+            let label = match &e.name {
+                Some(name) => format!("element[{}] {} '{name}'", e.index, e.kind),
+                None => format!("element[{}] {}", e.index, e.kind),
+            };
             if e.kind == "aperture" && e.power_in_w > 0.0 && e.power_lost_w / e.power_in_w > 1e-3 {
                 reasons.push(format!(
-                    "clipping upstream: element[{}] aperture passes {:.2} % of the power",
-                    e.index,
+                    "clipping upstream: {label} passes {:.2} % of the power",
                     100.0 * e.power_out_w / e.power_in_w
                 ));
             }
-            if e.kind == "aberration" || e.kind == "mask" || e.kind == "vortex" || e.kind == "tilt"
-            {
-                reasons.push(format!(
-                    "element[{}] {} upstream is not in the paraxial design",
-                    e.index, e.kind
-                ));
+            if matches!(e.kind.as_str(), "aberration" | "mask" | "vortex" | "tilt") {
+                reasons.push(format!("{label} upstream is not in the paraxial design"));
             }
             if !e.warnings.is_empty() {
-                reasons.push(format!("sampling: element[{}]: {}", e.index, e.warnings[0]));
+                reasons.push(format!("sampling: {label}: {}", e.warnings[0]));
             }
         }
         if reasons.is_empty() && !report.warnings.is_empty() {
