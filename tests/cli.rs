@@ -742,3 +742,68 @@ fn run_time_warnings_border_power_and_band_limit() {
     assert!(f(&e["power_lost_w"]) > 1e-6, "{e}");
     assert!(e["warnings"].to_string().contains("band limit"), "{e}");
 }
+
+#[test]
+fn strict_says_which_probes_it_could_not_check() {
+    // A flat-top source has no embedded Gaussian, so there is no paraxial
+    // prediction: --strict must say so rather than pass silently.
+    let dir = tempfile::tempdir().unwrap();
+    let layout = GOOD.replace(
+        "kind = \"gaussian\"\nwaist = \"0.4 mm\"",
+        "kind = \"flat-top\"\nradius = \"0.5 mm\"",
+    );
+    std::fs::write(dir.path().join("a.toml"), layout).unwrap();
+    let o = run_in(
+        dir.path(),
+        &["run", "a.toml", "-o", "out", "--quiet", "--strict"],
+    );
+    let (_, err) = text(&o);
+    assert!(o.status.success(), "{err}");
+    assert!(err.contains("probe 'end' not checked"), "{err}");
+    let r = report(&dir.path().join("out"));
+    assert!(probe(&r, "end")["paraxial"].is_null());
+}
+
+#[test]
+fn too_small_window_is_reported_not_rescaled() {
+    // A w = 0.5 mm Gaussian on a 0.32 mm window: the grid holds only part
+    // of the 1 W; the peak irradiance must stay the closed form 2P/(πw²)
+    // (Siegman ch. 17, from memory) instead of being scaled up, and both
+    // check and run must warn. Tolerances: 2 % on the held power (the 0.1 mm
+    // step lets the truncated field spread), 1 % on the peak.
+    let dir = tempfile::tempdir().unwrap();
+    let layout = GOOD
+        .replace("\"0.4 mm\"", "\"0.5 mm\"")
+        .replace("\"50 um\"", "\"5 um\"")
+        .replace("\"10 mm\"", "\"0.1 mm\"");
+    std::fs::write(dir.path().join("a.toml"), &layout).unwrap();
+    let o = run_in(dir.path(), &["check", "a.toml"]);
+    assert!(text(&o).0.contains("window holds only"), "{:?}", text(&o));
+    let o = run_in(dir.path(), &["run", "a.toml", "-o", "out", "--quiet"]);
+    assert!(o.status.success(), "{:?}", text(&o));
+    let r = report(&dir.path().join("out"));
+    let p = probe(&r, "end");
+    // The square window of half-width h = 0.16 mm holds erf(√2·h/w)² of a
+    // Gaussian's power (PHYSICS.md §7, slit row, d.h.).
+    let h: f64 = 0.16e-3;
+    let held = erf(2f64.sqrt() * h / 0.5e-3).powi(2);
+    assert!(
+        (f(&p["power_w"]) / held - 1.0).abs() < 0.02,
+        "{} vs {held}",
+        p["power_w"]
+    );
+    let peak = 2.0 / (std::f64::consts::PI * 0.25e-6);
+    assert!((f(&p["peak_irradiance_w_m2"]) / peak - 1.0).abs() < 0.01);
+    assert!(r["warnings"].to_string().contains("window holds only"));
+}
+
+/// erf by Abramowitz & Stegun 7.1.26 (|error| < 1.5e-7; from memory).
+fn erf(x: f64) -> f64 {
+    let t = 1.0 / (1.0 + 0.3275911 * x.abs());
+    let y = 1.0
+        - (((((1.061405429 * t - 1.453152027) * t) + 1.421413741) * t - 0.284496736) * t
+            + 0.254829592)
+            * t
+            * (-x * x).exp();
+    y.copysign(x)
+}
