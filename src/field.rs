@@ -6,7 +6,7 @@
 //! phases are relative to it. Time dependence is `exp(−iωt)`; a forward
 //! plane wave is `exp(+ikz)`.
 
-use ndarray::{s, Array2, Axis, Zip};
+use ndarray::{s, Array2, ArrayView1, Axis, Zip};
 use num_complex::Complex64;
 
 use crate::error::{Error, Result};
@@ -222,16 +222,31 @@ impl Field {
     }
 }
 
+/// `f(iy, row)` for every row, computed in parallel and returned in row
+/// order. Summing the results in that order makes a reduction independent
+/// of the number of threads.
+pub fn map_rows<T, F>(values: &Array2<Complex64>, f: F) -> Vec<T>
+where
+    T: Send,
+    F: Fn(usize, ArrayView1<Complex64>) -> T + Sync,
+{
+    use rayon::prelude::*;
+    values
+        .axis_iter(Axis(0))
+        .into_par_iter()
+        .enumerate()
+        .map(|(iy, row)| f(iy, row))
+        .collect()
+}
+
 /// `Σ|v|²` over an array, in parallel over rows. The row sums are added in
 /// row order, so the result does not depend on the number of threads.
 pub fn sum_norm_sqr(values: &Array2<Complex64>) -> f64 {
-    use rayon::prelude::*;
-    let rows: Vec<f64> = values
-        .axis_iter(Axis(0))
-        .into_par_iter()
-        .map(|row| row.iter().map(|v| v.norm_sqr()).sum::<f64>())
-        .collect();
-    rows.iter().sum()
+    map_rows(values, |_, row| {
+        row.iter().map(|v| v.norm_sqr()).sum::<f64>()
+    })
+    .iter()
+    .sum()
 }
 
 /// `Σ conj(a)·b` over two arrays of the same shape, deterministic as

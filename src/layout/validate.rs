@@ -21,7 +21,7 @@ use crate::measure::{Basis, CausticOptions};
 use crate::optics::{
     Aberration, Aperture, ApertureShape, LensModel, Mask, MaskKind, ThinLens, Tilt, Vortex,
 };
-use crate::propagate::{choose_method, FresnelSingleFft, Method};
+use crate::propagate::{resolve_method, FresnelSingleFft, Method};
 use crate::units::{Angle, Length, Power, Wavefront};
 
 /// Element kinds accepted in `[[element]]`.
@@ -701,17 +701,7 @@ impl Ctx<'_> {
                     "fresnel" => Method::Fresnel,
                     _ => Method::Auto,
                 };
-                let (method, reason) = match requested {
-                    Method::Auto => choose_method(grid, wavelength_m, length_m),
-                    Method::AngularSpectrum => (
-                        Method::AngularSpectrum,
-                        "angular spectrum: chosen in the layout".to_string(),
-                    ),
-                    Method::Fresnel => (
-                        Method::Fresnel,
-                        "single-FFT Fresnel: chosen in the layout".to_string(),
-                    ),
-                };
+                let (method, reason) = resolve_method(grid, wavelength_m, length_m, requested);
                 if method == Method::Fresnel && length_m == 0.0 {
                     return Err(self.err(
                         line,

@@ -8,9 +8,8 @@
 //! transmission `exp(−r²/a²)` (intensity `exp(−2r²/a²)`, so `a` is its 1/e²
 //! intensity radius). `Polarity::Obscuration` inverts the mask (`1 − t`).
 
-use ndarray::{Axis, Zip};
+use ndarray::Zip;
 use num_complex::Complex64;
-use rayon::prelude::*;
 
 use super::Transmission;
 use crate::error::{Error, Result};
@@ -157,21 +156,15 @@ impl Aperture {
         let grid = field.grid();
         let dx = grid.spacing_m();
         let xs = grid.coords_m();
-        let rows: Vec<f64> = field
-            .values
-            .axis_iter(Axis(0))
-            .into_par_iter()
-            .enumerate()
-            .map(|(iy, row)| {
-                let y = xs[iy];
-                row.iter()
-                    .zip(&xs)
-                    .map(|(v, &x)| {
-                        self.intensity_weight(self.pixel_transmission(x, y, dx)) * v.norm_sqr()
-                    })
-                    .sum::<f64>()
-            })
-            .collect();
+        let rows = crate::field::map_rows(&field.values, |iy, row| {
+            let y = xs[iy];
+            row.iter()
+                .zip(&xs)
+                .map(|(v, &x)| {
+                    self.intensity_weight(self.pixel_transmission(x, y, dx)) * v.norm_sqr()
+                })
+                .sum::<f64>()
+        });
         rows.iter().sum::<f64>() * grid.cell_area_m2()
     }
 

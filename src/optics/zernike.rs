@@ -157,27 +157,19 @@ impl Aberration {
     /// amplitude is `∫A·exp(iΦ)`, whose expansion weights the phase variance
     /// by `A` (PHYSICS.md §6, derived there).
     pub fn amplitude_weighted_rms_m(&self, field: &Field) -> f64 {
-        use ndarray::Axis;
-        use rayon::prelude::*;
         let xs = field.grid().coords_m();
         let margin = field.grid().spacing_m() * std::f64::consts::FRAC_1_SQRT_2;
-        let rows: Vec<[f64; 3]> = field
-            .values
-            .axis_iter(Axis(0))
-            .into_par_iter()
-            .enumerate()
-            .map(|(iy, row)| {
-                let y = xs[iy];
-                row.iter().zip(&xs).fold([0.0; 3], |[a, aw, aw2], (v, &x)| {
-                    let amp = v.norm();
-                    if amp == 0.0 {
-                        return [a, aw, aw2];
-                    }
-                    let w = self.path_within_m(x, y, margin);
-                    [a + amp, aw + amp * w, aw2 + amp * w * w]
-                })
+        let rows = crate::field::map_rows(&field.values, |iy, row| {
+            let y = xs[iy];
+            row.iter().zip(&xs).fold([0.0; 3], |[a, aw, aw2], (v, &x)| {
+                let amp = v.norm();
+                if amp == 0.0 {
+                    return [a, aw, aw2];
+                }
+                let w = self.path_within_m(x, y, margin);
+                [a + amp, aw + amp * w, aw2 + amp * w * w]
             })
-            .collect();
+        });
         let [a, aw, aw2] = rows.iter().fold([0.0; 3], |acc, r| {
             [acc[0] + r[0], acc[1] + r[1], acc[2] + r[2]]
         });

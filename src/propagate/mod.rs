@@ -99,16 +99,16 @@ pub fn choose_method(grid: Grid, wavelength_m: f64, z_m: f64) -> (Method, String
     }
 }
 
-/// Propagates `field` in place by `z_m` with `method` (building the
-/// transfer function for this one step).
-///
-/// # Errors
-/// [`crate::Error::OutOfRange`] for a non-finite distance, or a zero
-/// distance with the Fresnel method.
-pub fn propagate(field: &mut Field, z_m: f64, method: Method) -> Result<StepReport> {
-    let grid_before = field.grid();
-    let (method, reason) = match method {
-        Method::Auto => choose_method(grid_before, field.wavelength_m(), z_m),
+/// The method for a step as requested in a layout: `Auto` is resolved by
+/// [`choose_method`]; an explicit choice is kept and said to be the user's.
+pub fn resolve_method(
+    grid: Grid,
+    wavelength_m: f64,
+    z_m: f64,
+    requested: Method,
+) -> (Method, String) {
+    match requested {
+        Method::Auto => choose_method(grid, wavelength_m, z_m),
         Method::AngularSpectrum => (
             Method::AngularSpectrum,
             "angular spectrum: chosen in the layout".to_string(),
@@ -117,7 +117,18 @@ pub fn propagate(field: &mut Field, z_m: f64, method: Method) -> Result<StepRepo
             Method::Fresnel,
             "single-FFT Fresnel: chosen in the layout".to_string(),
         ),
-    };
+    }
+}
+
+/// Propagates `field` in place by `z_m` with `method` (building the
+/// transfer function for this one step).
+///
+/// # Errors
+/// [`crate::Error::OutOfRange`] for a non-finite distance, or a zero
+/// distance with the Fresnel method.
+pub fn propagate(field: &mut Field, z_m: f64, method: Method) -> Result<StepReport> {
+    let grid_before = field.grid();
+    let (method, reason) = resolve_method(grid_before, field.wavelength_m(), z_m, method);
     let power_removed_w = match method {
         Method::Fresnel => {
             FresnelSingleFft::new(z_m)?.apply(field)?;
