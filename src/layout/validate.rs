@@ -236,6 +236,21 @@ impl Ctx<'_> {
         path
     }
 
+    /// The line of `key = …` in the table whose header is on `header_line`.
+    fn key_line(&self, header_line: Option<usize>, key: &str) -> Option<usize> {
+        let header = header_line?;
+        self.text
+            .lines()
+            .enumerate()
+            .skip(header)
+            .take_while(|(_, l)| !l.trim_start().starts_with('['))
+            .find(|(_, l)| {
+                l.split_once('=')
+                    .is_some_and(|(k, _)| k.trim().trim_matches('"') == key)
+            })
+            .map(|(i, _)| i + 1)
+    }
+
     fn line_of(&self, byte: usize) -> usize {
         self.text[..byte.min(self.text.len())]
             .bytes()
@@ -316,7 +331,7 @@ impl Ctx<'_> {
             if let Operation::Probe(p) = &op {
                 if probe_names.contains(&p.name) {
                     return Err(self.err(
-                        line,
+                        self.key_line(line, "name").or(line),
                         format!(
                             "element[{index}].name: probe name '{}' is used twice",
                             p.name
@@ -642,7 +657,7 @@ impl Ctx<'_> {
         for k in e.present_keys() {
             if !allowed.contains(&k) {
                 return Err(self.err(
-                    line,
+                    self.key_line(line, k).or(line),
                     format!(
                         "{}: does not apply to a {kind} element (its keys: {}, name)",
                         key(k),
