@@ -97,23 +97,42 @@ fn fresnel_step(c: &mut Criterion) {
     group.finish();
 }
 
+/// Two 41-plane caustics at 1024²: `asm`, a focused waist (w0 = 0.1 mm,
+/// zR = 30 mm, span ±3zR) whose planes all lie within the critical distance
+/// n·dx²/λ = 96 mm, so every plane is one spectrum multiply and one inverse
+/// FFT of the probe's spectrum; `fresnel`, a wide beam (w0 = 1.28 mm,
+/// zR = 4.8 m, span 6zR) whose planes mostly lie beyond it and use the
+/// single-FFT Fresnel transform of the probe.
 fn caustic_41(c: &mut Criterion) {
     let mut group = c.benchmark_group("caustic_41_planes");
     group.sample_size(10);
-    let field = gaussian(1024);
-    let z_r = std::f64::consts::PI * (1024.0 * 10e-6 / 8.0f64).powi(2) / LAMBDA;
-    let options = CausticOptions {
-        span_m: 6.0 * z_r,
-        planes: 41,
-        centre_m: 0.0,
-    };
-    for threads in [1usize, 2] {
-        let pool = pool(threads);
-        group.bench_with_input(
-            BenchmarkId::new(format!("{threads}t"), 1024),
-            &1024,
-            |b, _| pool.install(|| b.iter(|| caustic(&field, &options).expect("caustic"))),
-        );
+    let n = 1024;
+    let spacing = 10e-6;
+    let focused = Mode::new(ModeShape::HermiteGauss { m: 0, n: 0 }, LAMBDA, 0.1e-3)
+        .expect("mode")
+        .sample(Grid::new(n, spacing).expect("grid"), 0.0, 1.0)
+        .expect("field");
+    let z_r_focused = std::f64::consts::PI * 0.1e-3f64.powi(2) / LAMBDA;
+    let wide = gaussian(n);
+    let z_r_wide = std::f64::consts::PI * (n as f64 * spacing / 8.0).powi(2) / LAMBDA;
+    let cases = [
+        ("asm", focused, 6.0 * z_r_focused),
+        ("fresnel", wide, 6.0 * z_r_wide),
+    ];
+    for (name, field, span_m) in &cases {
+        let options = CausticOptions {
+            span_m: *span_m,
+            planes: 41,
+            centre_m: 0.0,
+        };
+        for threads in [1usize, 2] {
+            let pool = pool(threads);
+            group.bench_with_input(
+                BenchmarkId::new(format!("{threads}t-{name}"), n),
+                &n,
+                |b, _| pool.install(|| b.iter(|| caustic(field, &options).expect("caustic"))),
+            );
+        }
     }
     group.finish();
 }

@@ -18,7 +18,7 @@ use std::cell::RefCell;
 use std::collections::HashMap;
 use std::sync::{Arc, Mutex, OnceLock};
 
-use ndarray::{Array2, ArrayViewMut2, Axis};
+use ndarray::{Array2, ArrayView2, ArrayViewMut2, Axis};
 use num_complex::Complex64;
 use rayon::prelude::*;
 use rustfft::{Fft, FftPlanner};
@@ -97,7 +97,7 @@ impl Fft2 {
     /// If `data` is not `n × n` and contiguous in standard layout.
     pub fn forward(&self, data: &mut Array2<Complex64>) {
         self.rows(data, &self.forward);
-        self.columns(data, &self.forward, None, |_, _| 0.0);
+        self.columns(data, None, Some(&self.forward), None, None);
     }
 
     /// In-place inverse 2-D FFT without the `1/n²` factor.
@@ -105,7 +105,7 @@ impl Fft2 {
     /// # Panics
     /// As [`Fft2::forward`].
     pub fn inverse_unscaled(&self, data: &mut Array2<Complex64>) {
-        self.columns(data, &self.inverse, None, |_, _| 0.0);
+        self.columns(data, None, Some(&self.inverse), None, None);
         self.rows(data, &self.inverse);
     }
 
@@ -115,7 +115,7 @@ impl Fft2 {
     /// # Panics
     /// As [`Fft2::forward`].
     pub fn inverse(&self, data: &mut Array2<Complex64>) {
-        self.columns(data, &self.inverse, None, |_, _| 0.0);
+        self.columns(data, None, Some(&self.inverse), None, None);
         let scale = 1.0 / (self.n * self.n) as f64;
         self.rows_scaled(data, &self.inverse, Some(scale));
     }
@@ -151,25 +151,27 @@ impl Fft2 {
         let full = (n * n) as f64;
         let full2 = full * full;
         self.rows(data, &self.forward);
+        let multiply = |ix: usize, column: &mut [Complex64]| -> f64 {
+            let qx = ix.min(n - ix);
+            let row = &h[qx * m..(qx + 1) * m];
+            let (low, high) = column.split_at_mut(m.min(n));
+            let mut lost = 0.0;
+            for (v, &t) in low.iter_mut().zip(row) {
+                lost += v.norm_sqr() * (1.0 - full2 * t.norm_sqr());
+                *v *= t;
+            }
+            for (v, &t) in high.iter_mut().zip(row[1..=n - m.min(n)].iter().rev()) {
+                lost += v.norm_sqr() * (1.0 - full2 * t.norm_sqr());
+                *v *= t;
+            }
+            lost
+        };
         let removed = self.columns(
             data,
-            &self.forward,
+            None,
+            Some(&self.forward),
+            Some(&multiply),
             Some(&self.inverse),
-            |ix, column: &mut [Complex64]| -> f64 {
-                let qx = ix.min(n - ix);
-                let row = &h[qx * m..(qx + 1) * m];
-                let (low, high) = column.split_at_mut(m.min(n));
-                let mut lost = 0.0;
-                for (v, &t) in low.iter_mut().zip(row) {
-                    lost += v.norm_sqr() * (1.0 - full2 * t.norm_sqr());
-                    *v *= t;
-                }
-                for (v, &t) in high.iter_mut().zip(row[1..=n - m.min(n)].iter().rev()) {
-                    lost += v.norm_sqr() * (1.0 - full2 * t.norm_sqr());
-                    *v *= t;
-                }
-                lost
-            },
         );
         self.rows(data, &self.inverse);
         removed
@@ -208,49 +210,93 @@ impl Fft2 {
         });
     }
 
-    /// Transforms every column with `first`; if `second` is given, calls
-    /// `middle(ix, column)` on each transformed column and then transforms
-    /// it again with `second`. Returns the sum of `middle`'s results.
-    fn columns<M>(
+    /// The column pass. For each strip of [`STRIP`] columns: gathers it
+    /// (from `src` if given, else from `data`) into per-thread scratch,
+    /// then for each column applies `first`, calls `middle(ix, column)`,
+    /// applies `second` (each step only if given), and scatters the strip
+    /// back into `data`. Returns the sum of `middle`'s results, summed per
+    /// strip and then over strips in order (the same for any thread count).
+    fn columns(
         &self,
         data: &mut Array2<Complex64>,
-        first: &Arc<dyn Fft<f64>>,
+        src: Option<&Array2<Complex64>>,
+        first: Option<&Arc<dyn Fft<f64>>>,
+        middle: Option<&Middle<'_>>,
         second: Option<&Arc<dyn Fft<f64>>>,
-        middle: M,
-    ) -> f64
-    where
-        M: Fn(usize, &mut [Complex64]) -> f64 + Sync,
-    {
+    ) -> f64 {
         let n = self.n;
         assert_eq!(data.dim(), (n, n), "array must be {n}x{n}");
         let stride = n + COLUMN_PAD;
-        let sums: Vec<f64> = data
-            .axis_chunks_iter_mut(Axis(1), STRIP)
-            .into_par_iter()
-            .enumerate()
-            .map(|(strip_index, mut strip)| {
-                let width = strip.ncols();
-                with_buffer(&STRIP_SCRATCH, STRIP * stride, |buf| {
-                    gather(&strip, buf, stride);
-                    let mut total = 0.0;
-                    with_buffer(&FFT_SCRATCH, self.scratch_len, |scratch| {
-                        for c in 0..width {
-                            let column = &mut buf[c * stride..c * stride + n];
+        let work = |strip_index: usize,
+                    mut strip: ArrayViewMut2<Complex64>,
+                    from: Option<ArrayView2<Complex64>>|
+         -> f64 {
+            let width = strip.ncols();
+            with_buffer(&STRIP_SCRATCH, STRIP * stride, |buf| {
+                match &from {
+                    Some(from) => gather(from, buf, stride),
+                    None => gather(&strip.view(), buf, stride),
+                }
+                let mut total = 0.0;
+                with_buffer(&FFT_SCRATCH, self.scratch_len, |scratch| {
+                    for c in 0..width {
+                        let column = &mut buf[c * stride..c * stride + n];
+                        if let Some(first) = first {
                             first.process_with_scratch(column, scratch);
-                            if let Some(second) = second {
-                                total += middle(strip_index * STRIP + c, column);
-                                second.process_with_scratch(column, scratch);
-                            }
                         }
-                    });
-                    scatter(buf, &mut strip, stride);
-                    total
-                })
+                        if let Some(middle) = middle {
+                            total += middle(strip_index * STRIP + c, column);
+                        }
+                        if let Some(second) = second {
+                            second.process_with_scratch(column, scratch);
+                        }
+                    }
+                });
+                scatter(buf, &mut strip, stride);
+                total
             })
-            .collect();
+        };
+        let strips = data.axis_chunks_iter_mut(Axis(1), STRIP).into_par_iter();
+        let sums: Vec<f64> = match src {
+            Some(src) => {
+                assert_eq!(src.dim(), (n, n), "source array must be {n}x{n}");
+                strips
+                    .zip(src.axis_chunks_iter(Axis(1), STRIP).into_par_iter())
+                    .enumerate()
+                    .map(|(i, (strip, from))| work(i, strip, Some(from)))
+                    .collect()
+            }
+            None => strips
+                .enumerate()
+                .map(|(i, strip)| work(i, strip, None))
+                .collect(),
+        };
         sums.iter().sum()
     }
+
+    /// Inverse 2-D FFT, without the `1/n²` factor, of `src` filtered by
+    /// `filter` into `dst`: `filter(kx, column)` is called on each column
+    /// of the spectrum (FFT order) after it is gathered from `src` and
+    /// before its inverse FFT, so a multiply by a transfer function costs
+    /// no pass of its own and `src` is left untouched. Returns the sum of
+    /// `filter`'s results (per strip of columns, then strips in order).
+    ///
+    /// # Panics
+    /// If `src` or `dst` are not `n × n` and contiguous.
+    pub fn inverse_filtered_from(
+        &self,
+        src: &Array2<Complex64>,
+        dst: &mut Array2<Complex64>,
+        filter: &Middle<'_>,
+    ) -> f64 {
+        let total = self.columns(dst, Some(src), None, Some(filter), Some(&self.inverse));
+        self.rows(dst, &self.inverse);
+        total
+    }
 }
+
+/// A per-column operation of the column pass: `(kx, column) -> partial sum`.
+pub type Middle<'a> = dyn Fn(usize, &mut [Complex64]) -> f64 + Sync + 'a;
 
 /// Rows handled together by [`gather`] and [`scatter`]: four complex f64
 /// samples are one 64-byte cache line of a gathered column.
@@ -260,7 +306,7 @@ const ROW_BLOCK: usize = 4;
 ///
 /// Works on blocks of [`ROW_BLOCK`] rows so that each write into `buf`
 /// fills a whole cache line of one gathered column.
-fn gather(strip: &ArrayViewMut2<Complex64>, buf: &mut [Complex64], stride: usize) {
+fn gather(strip: &ArrayView2<Complex64>, buf: &mut [Complex64], stride: usize) {
     let width = strip.ncols();
     for (block_index, block) in strip.axis_chunks_iter(Axis(0), ROW_BLOCK).enumerate() {
         let iy = block_index * ROW_BLOCK;
@@ -288,7 +334,7 @@ fn gather(strip: &ArrayViewMut2<Complex64>, buf: &mut [Complex64], stride: usize
 
 /// Row `r` of a block of a strip as a slice (rows of a standard-layout
 /// array are contiguous).
-fn row_slice<'a>(block: &'a ndarray::ArrayView2<'_, Complex64>, r: usize) -> &'a [Complex64] {
+fn row_slice<'a>(block: &'a ArrayView2<'_, Complex64>, r: usize) -> &'a [Complex64] {
     block
         .row(r)
         .to_slice()
@@ -376,6 +422,59 @@ pub fn transform_centred(data: &mut Array2<Complex64>, direction: Direction) {
         Direction::Backward => plan.inverse_unscaled(data),
     }
     modulate(data, &p, global * global);
+}
+
+/// [`transform_centred`] with separable factors merged into its centring
+/// passes: computes `post[iy]·post[ix]·post_scale · T(pre[iy]·pre[ix]·src)`
+/// into `data`, where `T` is the centred transform in `direction`. `src`
+/// (the same shape as `data`) is read instead of `data` if given, so a copy
+/// costs no extra pass. Two element-wise passes in total, one before and
+/// one after the FFT, instead of four.
+///
+/// # Panics
+/// If `pre`, `post` or `src` do not match the size of `data`.
+pub fn transform_centred_separable(
+    data: &mut Array2<Complex64>,
+    src: Option<&Array2<Complex64>>,
+    direction: Direction,
+    pre: &[Complex64],
+    post: &[Complex64],
+    post_scale: Complex64,
+) {
+    let n = data.nrows();
+    assert!(
+        pre.len() == n && post.len() == n,
+        "factors must have n = {n} samples"
+    );
+    let (mut p, mut global) = centred_phase(n);
+    if direction == Direction::Backward {
+        p.iter_mut().for_each(|v| *v = v.conj());
+        global = global.conj();
+    }
+    let pre: Vec<Complex64> = pre.iter().zip(&p).map(|(a, b)| a * b).collect();
+    let post: Vec<Complex64> = post.iter().zip(&p).map(|(a, b)| a * b).collect();
+    match src {
+        Some(src) => {
+            assert_eq!(src.dim(), data.dim(), "source must match the destination");
+            data.axis_iter_mut(Axis(0))
+                .into_par_iter()
+                .zip(src.axis_iter(Axis(0)))
+                .enumerate()
+                .for_each(|(iy, (mut row, from))| {
+                    let py = pre[iy];
+                    for ((v, s), px) in row.iter_mut().zip(from.iter()).zip(&pre) {
+                        *v = s * (py * px);
+                    }
+                });
+        }
+        None => modulate(data, &pre, Complex64::new(1.0, 0.0)),
+    }
+    let plan = Fft2::for_size(n);
+    match direction {
+        Direction::Forward => plan.forward(data),
+        Direction::Backward => plan.inverse_unscaled(data),
+    }
+    modulate(data, &post, global * global * post_scale);
 }
 
 /// Centred forward transform; see [`transform_centred`].

@@ -7,15 +7,14 @@
 //! just before the step is merged into the input chirp
 //! `exp(iπr1²·(1/z − 1/f)/λ)`, so a lens whose own phase would be
 //! undersampled on the grid can still be focused exactly. The chirps are
-//! separable and built from 1-D factors. Power is conserved exactly
-//! (Parseval).
+//! separable and built from 1-D factors, which are merged with the centring
+//! phases of the FFT: one element-wise pass before the FFT and one after
+//! (no 2-D chirp is stored). Power is conserved exactly (Parseval).
 
-use ndarray::Axis;
 use num_complex::Complex64;
-use rayon::prelude::*;
 
 use crate::error::{Error, Result};
-use crate::fft::{transform_centred, Direction};
+use crate::fft::{transform_centred_separable, Direction};
 use crate::field::Field;
 use crate::grid::Grid;
 
@@ -76,23 +75,38 @@ impl FresnelSingleFft {
     /// # Errors
     /// As [`FresnelSingleFft::output_grid`].
     pub fn apply(&self, field: &mut Field) -> Result<()> {
-        let input = field.grid();
-        let lambda = field.wavelength_m();
+        self.apply_into(None, field)
+    }
+
+    /// [`FresnelSingleFft::apply`] reading the input from `src` (if given)
+    /// instead of `field`, so a caller that propagates copies of one field
+    /// pays no separate copy pass. `field` must have the same `n` and
+    /// wavelength as `src`.
+    pub(crate) fn apply_into(&self, src: Option<&Field>, field: &mut Field) -> Result<()> {
+        let (input, lambda) = match src {
+            Some(s) => (s.grid(), s.wavelength_m()),
+            None => (field.grid(), field.wavelength_m()),
+        };
         let output = self.output_grid(input, lambda)?;
         let z = self.z_m;
         let curvature = 1.0 / z - self.lens_focal_length_m.map_or(0.0, |f| 1.0 / f);
         let chirp_in = chirp(input, lambda, curvature);
-        multiply_separable(field, &chirp_in, Complex64::new(1.0, 0.0));
         let direction = if z > 0.0 {
             Direction::Forward
         } else {
             Direction::Backward
         };
-        transform_centred(&mut field.values, direction);
         let chirp_out = chirp(output, lambda, 1.0 / z);
-        // 1/(iλz)·dx1²: magnitude dx1²/(λ|z|) = dx1/(n·dx2)·... keeps Σ|U|²dx² fixed.
+        // 1/(iλz)·dx1²: keeps Σ|U|²dx² fixed (Parseval).
         let prefactor = Complex64::new(0.0, -1.0) * (input.cell_area_m2() / (lambda * z));
-        multiply_separable(field, &chirp_out, prefactor);
+        transform_centred_separable(
+            &mut field.values,
+            src.map(|s| &s.values),
+            direction,
+            &chirp_in,
+            &chirp_out,
+            prefactor,
+        );
         field.set_grid(output);
         Ok(())
     }
@@ -109,19 +123,4 @@ fn chirp(grid: Grid, wavelength_m: f64, curvature_per_m: f64) -> Vec<Complex64> 
             )
         })
         .collect()
-}
-
-/// `U[iy, ix] *= c[iy]·c[ix]·scale`, in parallel over rows.
-fn multiply_separable(field: &mut Field, c: &[Complex64], scale: Complex64) {
-    field
-        .values
-        .axis_iter_mut(Axis(0))
-        .into_par_iter()
-        .enumerate()
-        .for_each(|(iy, mut row)| {
-            let cy = c[iy] * scale;
-            for (v, cx) in row.iter_mut().zip(c) {
-                *v *= cy * cx;
-            }
-        });
 }
