@@ -53,6 +53,24 @@ pub struct RunOptions<'a> {
 }
 
 /// Estimated peak memory of running `plan`, bytes.
+///
+/// The run's phases happen one after another, so the peak is the largest
+/// of them, counted per sample of the largest grid (`n²`) plus a fixed
+/// 6 MiB (binary, FFT plans, per-thread scratch). Calibrated against the
+/// maximum resident set size of `/usr/bin/time -v` (docs/performance.md):
+///
+/// - source check: 32 B/sample (the source is sampled twice at once to
+///   measure it and its captured fraction);
+/// - angular-spectrum step: 16 B field + the transfer function's even
+///   quadrant, `16·(n/2+1)²` bytes; a Fresnel step needs only the field;
+/// - probe: 24 B (field + irradiance); saving any picture or array adds
+///   8 B/sample and 8 MiB (a second irradiance/phase map and the resampled
+///   image); a caustic holds the probe's spectrum and a work plane
+///   (+32 B/sample) and its quadrant tables (`25·(n/2+1)²` bytes); a modal
+///   decomposition holds +24 B/sample.
+///
+/// A one-step 4096² run is estimated at 518 MiB (measured 517 MiB); bytes
+/// per sample are at least 32, so n = 8192 needs about 2.0 GiB.
 pub fn estimate_memory_bytes(plan: &Plan) -> f64 {
     let n = plan
         .steps
@@ -61,27 +79,49 @@ pub fn estimate_memory_bytes(plan: &Plan) -> f64 {
         .chain(std::iter::once(plan.grid.n()))
         .max()
         .unwrap_or(plan.grid.n()) as f64;
-    let complex = 16.0 * n * n;
-    let real = 8.0 * n * n;
-    let has_caustic = plan
-        .steps
-        .iter()
-        .any(|s| matches!(&s.op, Operation::Probe(p) if p.caustic.is_some()));
-    let has_modes = plan
-        .steps
-        .iter()
-        .any(|s| matches!(&s.op, Operation::Probe(p) if p.modes.is_some()));
-    // Field + transfer function, irradiance and a measurement copy; a
-    // caustic holds the probe spectrum and a working plane; a modal
-    // decomposition one sampled mode at a time.
-    let mut bytes = 2.0 * complex + 2.0 * real;
-    if has_caustic {
-        bytes += 2.0 * complex;
-    }
-    if has_modes {
-        bytes += complex;
-    }
-    bytes + 40.0 * 1024.0 * 1024.0
+    let samples = n * n;
+    let half = (n / 2.0).floor() + 1.0;
+    let quadrant = half * half;
+    let mib = 1024.0 * 1024.0;
+    let source_check = 32.0 * samples;
+    let asm_step = if plan.steps.iter().any(|s| {
+        matches!(&s.op, Operation::Space { method, .. } if *method != crate::propagate::Method::Fresnel)
+    }) {
+        16.0 * samples + 16.0 * quadrant
+    } else {
+        16.0 * samples
+    };
+    let probes = plan.steps.iter().filter_map(|s| match &s.op {
+        Operation::Probe(p) => Some(p),
+        _ => None,
+    });
+    let probe_peak = probes
+        .map(|p| {
+            let measure = 24.0 * samples;
+            let saves = p.save_intensity
+                || p.save_phase
+                || p.save_field
+                || p.save_profile
+                || p.save_intensity_log;
+            let saving = if saves {
+                measure + 8.0 * samples + 8.0 * mib
+            } else {
+                measure
+            };
+            let caustic = if p.caustic.is_some() {
+                measure + 32.0 * samples + 25.0 * quadrant
+            } else {
+                0.0
+            };
+            let modes = if p.modes.is_some() {
+                measure + 24.0 * samples
+            } else {
+                0.0
+            };
+            saving.max(caustic).max(modes)
+        })
+        .fold(0.0, f64::max);
+    source_check.max(asm_step).max(probe_peak) + 6.0 * mib
 }
 
 /// The memory limit: `BEAMWRIGHT_MEMORY_LIMIT_MIB` if set, else 90 % of the
