@@ -10,9 +10,17 @@
 //! gathers strips of [`STRIP`] columns into a per-thread scratch buffer
 //! (each column padded by one cache line so that power-of-two sizes do not
 //! alias in the cache), transforms them there, optionally multiplies by a
-//! transfer function while the strip is hot, and scatters back. Plans are
-//! cached per size and scratch buffers per thread, so after the first call
-//! nothing is allocated.
+//! transfer function while the strip is hot, and scatters back. Gather and
+//! scatter move blocks of 4 rows, so every write into the strip buffer
+//! fills a whole cache line of one column. Transfer functions are even in
+//! `fx` and `fy` and passed as their `(n/2+1)²` quadrant, whose row
+//! `min(kx, n−kx)` is column `kx` — read contiguously in the column pass.
+//! [`Fft2::inverse`] scales by `1/n²` row by row inside the row pass;
+//! [`Fft2::inverse_filtered_from`] gathers from a stored spectrum so that
+//! a filtered copy costs no extra pass. Plans are cached per size and
+//! scratch buffers per thread, so after the first call nothing is
+//! allocated. Sums are formed per strip and then over strips in order,
+//! so results do not depend on the number of threads.
 
 use std::cell::RefCell;
 use std::collections::HashMap;
