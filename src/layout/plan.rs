@@ -114,7 +114,8 @@ impl Source {
                 field
             }
         };
-        if !(field.power_w() > 0.0) {
+        let power = field.power_w();
+        if power.is_nan() || power <= 0.0 {
             return Err(crate::Error::Physics(
                 "the source has no power on the grid: is the window far from the beam?".into(),
             ));
