@@ -507,43 +507,15 @@ pub fn modulate(data: &mut Array2<Complex64>, p: &[Complex64], scale: Complex64)
 mod tests {
     use super::*;
 
-    /// Naive 2-D DFT, the slow reference.
-    fn naive_dft(a: &Array2<Complex64>) -> Array2<Complex64> {
-        let n = a.nrows();
-        let w = |k: usize| {
-            Complex64::from_polar(1.0, -2.0 * std::f64::consts::PI * (k % n) as f64 / n as f64)
-        };
-        Array2::from_shape_fn((n, n), |(ky, kx)| {
-            let mut s = Complex64::new(0.0, 0.0);
-            for iy in 0..n {
-                for ix in 0..n {
-                    s += a[[iy, ix]] * w(ky * iy) * w(kx * ix);
-                }
-            }
-            s
-        })
-    }
-
-    fn pseudo_random(n: usize, seed: u64) -> Array2<Complex64> {
-        let mut state = seed;
-        let mut next = || {
-            state = state
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
-            ((state >> 11) as f64 / (1u64 << 53) as f64) - 0.5
-        };
-        Array2::from_shape_fn((n, n), |_| Complex64::new(next(), next()))
-    }
-
     #[test]
     fn matches_naive_dft_for_awkward_sizes() {
         // Source: definition of the DFT (common practice). Tolerance 1e-10
         // relative to the largest coefficient: f64 round-off over n² terms.
         for n in [2, 3, 8, 15, 33, 40, 64] {
-            let a = pseudo_random(n, 42 + n as u64);
+            let a = crate::reference::seeded_samples(n, 42 + n as u64);
             let mut b = a.clone();
             Fft2::for_size(n).forward(&mut b);
-            let r = naive_dft(&a);
+            let r = crate::reference::naive_dft2(&a);
             let scale = r.iter().map(|v| v.norm()).fold(0.0, f64::max);
             for (x, y) in b.iter().zip(r.iter()) {
                 assert!((x - y).norm() <= 1e-10 * scale, "n = {n}: {x} vs {y}");

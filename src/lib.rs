@@ -40,6 +40,7 @@ pub mod layout;
 pub mod measure;
 pub mod optics;
 pub mod propagate;
+pub mod reference;
 pub mod report;
 pub mod run;
 pub mod units;

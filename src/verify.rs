@@ -20,7 +20,6 @@
 use std::f64::consts::PI;
 use std::panic::{catch_unwind, AssertUnwindSafe};
 
-use ndarray::Array2;
 use num_complex::Complex64;
 
 use crate::beams::{GaussianBeam, Mode, ModeShape};
@@ -306,18 +305,6 @@ fn hg(m: usize, n: usize, wavelength_m: f64, waist_m: f64) -> Result<Mode> {
     Mode::new(ModeShape::HermiteGauss { m, n }, wavelength_m, waist_m)
 }
 
-/// Seeded pseudo-random complex samples in [−0.5, 0.5)².
-fn pseudo_random(n: usize, seed: u64) -> Array2<Complex64> {
-    let mut state = seed;
-    let mut next = || {
-        state = state
-            .wrapping_mul(6364136223846793005)
-            .wrapping_add(1442695040888963407);
-        ((state >> 11) as f64 / (1u64 << 53) as f64) - 0.5
-    };
-    Array2::from_shape_fn((n, n), |_| Complex64::new(next(), next()))
-}
-
 /// A uniformly lit disc (1 W/m²) of radius `a`; returns it and the power
 /// the aperture passed.
 fn lit_disc(grid: Grid, wavelength_m: f64, a: f64) -> Result<(Field, f64)> {
@@ -371,7 +358,11 @@ fn lg_overlap_after_propagation() -> Result<(f64, f64)> {
 /// A random field on 128² at dx = 10λ over 5 mm: nothing is cut, so the
 /// transfer function is a pure phase.
 fn random_field() -> Result<Field> {
-    Field::from_values(Grid::new(128, 10e-6)?, 1e-6, pseudo_random(128, 99))
+    Field::from_values(
+        Grid::new(128, 10e-6)?,
+        1e-6,
+        crate::reference::seeded_samples(128, 99),
+    )
 }
 
 fn power_conservation() -> Result<(f64, f64)> {

@@ -28,6 +28,7 @@ use beamwright::propagate::direct_sum::{fresnel_at, rayleigh_sommerfeld_at};
 use beamwright::propagate::{
     critical_distance_m, propagate, AngularSpectrum, FresnelSingleFft, Method,
 };
+use beamwright::reference::{naive_dft2, seeded_samples};
 use beamwright::{Field, Grid};
 use ndarray::Array2;
 use num_complex::Complex64;
@@ -91,22 +92,6 @@ fn relative_l2(a: &Array2<Complex64>, b: &Array2<Complex64>) -> f64 {
 /// Normalised overlap `Σ conj(a)·b / sqrt(Σ|a|²·Σ|b|²)` of two arrays.
 fn overlap(a: &Array2<Complex64>, b: &Array2<Complex64>) -> Complex64 {
     inner_product(a, b) / (sum_norm_sqr(a) * sum_norm_sqr(b)).sqrt()
-}
-
-/// Seeded pseudo-random numbers in [−0.5, 0.5) (Knuth's MMIX LCG), so every
-/// run sees the same "random" arrays.
-struct Lcg(u64);
-impl Lcg {
-    fn next(&mut self) -> f64 {
-        self.0 = self
-            .0
-            .wrapping_mul(6364136223846793005)
-            .wrapping_add(1442695040888963407);
-        ((self.0 >> 11) as f64 / (1u64 << 53) as f64) - 0.5
-    }
-    fn array(&mut self, n: usize) -> Array2<Complex64> {
-        Array2::from_shape_fn((n, n), |_| Complex64::new(self.next(), self.next()))
-    }
 }
 
 /// `Σ|U|²·dx²` inside the circle of radius `r` about the axis, with each
@@ -178,21 +163,6 @@ fn self_focus(s: f64, f: f64, zr: f64, w0: f64) -> (f64, f64) {
 // FFT: the slow reference first.
 // ---------------------------------------------------------------------------
 
-/// Naive 2-D DFT with the crate's kernel `exp(−2πi(kx·jx + ky·jy)/n)`.
-fn naive_dft(a: &Array2<Complex64>) -> Array2<Complex64> {
-    let n = a.nrows();
-    let w = |k: usize| Complex64::from_polar(1.0, -2.0 * PI * (k % n) as f64 / n as f64);
-    Array2::from_shape_fn((n, n), |(ky, kx)| {
-        let mut s = Complex64::new(0.0, 0.0);
-        for iy in 0..n {
-            for ix in 0..n {
-                s += a[[iy, ix]] * w(ky * iy) * w(kx * ix);
-            }
-        }
-        s
-    })
-}
-
 #[test]
 fn naive_dft_reproduces_hand_computed_spectra() {
     // Source: definition of the DFT (PHYSICS.md §1): a delta at index 0 has a
@@ -202,9 +172,9 @@ fn naive_dft_reproduces_hand_computed_spectra() {
     let n = 8;
     let mut delta = Array2::zeros((n, n));
     delta[[0, 0]] = Complex64::new(1.0, 0.0);
-    assert!(naive_dft(&delta).iter().all(|v| (v - 1.0).norm() < 1e-12));
+    assert!(naive_dft2(&delta).iter().all(|v| (v - 1.0).norm() < 1e-12));
     let ones = Array2::from_elem((n, n), Complex64::new(1.0, 0.0));
-    let f = naive_dft(&ones);
+    let f = naive_dft2(&ones);
     for ((ky, kx), v) in f.indexed_iter() {
         let expected = if (ky, kx) == (0, 0) { 64.0 } else { 0.0 };
         assert!(
@@ -215,7 +185,7 @@ fn naive_dft_reproduces_hand_computed_spectra() {
     let wave = Array2::from_shape_fn((n, n), |(_, ix)| {
         Complex64::from_polar(1.0, 2.0 * PI * ix as f64 / n as f64)
     });
-    let f = naive_dft(&wave);
+    let f = naive_dft2(&wave);
     for ((ky, kx), v) in f.indexed_iter() {
         let expected = if (ky, kx) == (0, 1) { 64.0 } else { 0.0 };
         assert!(
@@ -231,10 +201,9 @@ fn fft2_equals_naive_dft_and_is_thread_count_independent() -> TestResult {
     // STYLE.md §5). Sizes include 1, 2, odd, prime and non-powers of two.
     // Tolerance: 1e-10 relative to the largest coefficient: the f64 round-off
     // of an n²-term sum of O(1) values is ~n·1e-16 ≪ 1e-10.
-    let mut rng = Lcg(20240611);
     for n in [1usize, 2, 3, 5, 8, 12, 17, 30, 32, 64] {
-        let a = rng.array(n);
-        let reference = naive_dft(&a);
+        let a = seeded_samples(n, 20240611 + n as u64);
+        let reference = naive_dft2(&a);
         let mut b = a.clone();
         Fft2::for_size(n).forward(&mut b);
         let scale = reference.iter().map(|v| v.norm()).fold(0.0, f64::max);
@@ -262,8 +231,7 @@ fn fft2_equals_naive_dft_and_is_thread_count_independent() -> TestResult {
     let run = || -> Result<Vec<Array2<Complex64>>, beamwright::Error> {
         let mut out = Vec::new();
         for n in [250usize, 256] {
-            let mut rng = Lcg(7 + n as u64);
-            let a = rng.array(n);
+            let a = seeded_samples(n, 7 + n as u64);
             let mut b = a.clone();
             Fft2::for_size(n).forward(&mut b);
             out.push(b);
@@ -712,8 +680,7 @@ fn free_space_conserves_power_and_is_reversible() -> TestResult {
     // power ≤ 9e-16, round trips ≤ 6e-16.
     let lambda = 1e-6;
     let grid = Grid::new(128, 10e-6)?;
-    let mut rng = Lcg(99);
-    let random = Field::from_values(grid, lambda, rng.array(128))?;
+    let random = Field::from_values(grid, lambda, seeded_samples(128, 99))?;
     let lg = Mode::new(ModeShape::LaguerreGauss { p: 2, l: 3 }, lambda, 80e-6)?
         .sample(grid, -0.01, 1.0)?;
     for (name, input) in [("random", random), ("LG_23", lg)] {
