@@ -35,6 +35,18 @@ fn write_example(dir: &Path, name: &str) -> PathBuf {
     path
 }
 
+/// Writes the bundled example `name` into a fresh directory and runs it
+/// with `-o out --quiet` plus `extra` flags; returns the directory (kept
+/// alive by the caller) and the process output.
+fn run_example(name: &str, extra: &[&str]) -> (tempfile::TempDir, Output) {
+    let dir = tempfile::tempdir().unwrap();
+    let layout = write_example(dir.path(), name);
+    let mut args = vec!["run", layout.to_str().unwrap(), "-o", "out", "--quiet"];
+    args.extend_from_slice(extra);
+    let o = run_in(dir.path(), &args);
+    (dir, o)
+}
+
 fn report(dir: &Path) -> Value {
     let s = std::fs::read_to_string(dir.join("report.json")).expect("report.json written");
     serde_json::from_str(&s).expect("valid JSON")
@@ -82,12 +94,7 @@ fn abcd_w(lambda: f64, w0: f64, ops: &[(char, f64)]) -> (f64, f64) {
 
 #[test]
 fn expander_example_clipping_matches_closed_form() {
-    let dir = tempfile::tempdir().unwrap();
-    let layout = write_example(dir.path(), "expander-clipping");
-    let o = run_in(
-        dir.path(),
-        &["run", layout.to_str().unwrap(), "-o", "out", "--quiet"],
-    );
+    let (dir, o) = run_example("expander-clipping", &[]);
     assert!(o.status.success(), "{:?}", text(&o));
     let r = report(&dir.path().join("out"));
     // The aperture is element[2]. Source: Siegman, Lasers (1986) ch. 17
@@ -144,12 +151,7 @@ fn expander_example_clipping_matches_closed_form() {
 
 #[test]
 fn donut_example_purity_ring_and_null() {
-    let dir = tempfile::tempdir().unwrap();
-    let layout = write_example(dir.path(), "donut-trap");
-    let o = run_in(
-        dir.path(),
-        &["run", layout.to_str().unwrap(), "-o", "out", "--quiet"],
-    );
+    let (dir, o) = run_example("donut-trap", &[]);
     assert!(o.status.success(), "{:?}", text(&o));
     let r = report(&dir.path().join("out"));
     let p = probe(&r, "focus");
@@ -191,21 +193,7 @@ fn donut_example_purity_ring_and_null() {
 
 #[test]
 fn relay_paraxial_check_matches_independent_abcd_and_strict_passes() {
-    let dir = tempfile::tempdir().unwrap();
-    let layout = write_example(dir.path(), "relay");
-    let o = run_in(
-        dir.path(),
-        &[
-            "run",
-            layout.to_str().unwrap(),
-            "-o",
-            "out",
-            "--quiet",
-            "--strict",
-            "--tolerance",
-            "0.5",
-        ],
-    );
+    let (dir, o) = run_example("relay", &["--strict", "--tolerance", "0.5"]);
     assert!(o.status.success(), "{:?}", text(&o));
     let r = report(&dir.path().join("out"));
     for (name, ops) in [
@@ -252,19 +240,7 @@ fn relay_paraxial_check_matches_independent_abcd_and_strict_passes() {
 
 #[test]
 fn degraded_relay_fails_strict_and_says_why() {
-    let dir = tempfile::tempdir().unwrap();
-    let layout = write_example(dir.path(), "relay-degraded");
-    let o = run_in(
-        dir.path(),
-        &[
-            "run",
-            layout.to_str().unwrap(),
-            "-o",
-            "out",
-            "--quiet",
-            "--strict",
-        ],
-    );
+    let (dir, o) = run_example("relay-degraded", &["--strict"]);
     let (_, err) = text(&o);
     assert_eq!(o.status.code(), Some(1), "{err}");
     assert!(err.contains("probe 'spot'"), "{err}");
