@@ -11,7 +11,7 @@ use clap::{Parser, Subcommand};
 /// tolerance, or verify found a failing check; 2 bad input (file, key,
 /// unit, value) or a run that could not complete.
 #[derive(Debug, Parser)]
-#[command(name = "beamwright", version, about, long_about = None)]
+#[command(name = "beamwright", version, about)]
 pub struct Cli {
     /// What to do.
     #[command(subcommand)]
