@@ -735,6 +735,7 @@ fn measure_probe(
         d4sigma_m: iso.d4sigma_m,
         d4sigma_principal_m: iso.principal_d4sigma_m,
         azimuth_rad: iso.azimuth_rad,
+        ellipticity: iso.principal_d4sigma_m[1] / iso.principal_d4sigma_m[0],
         iso_converged: iso.converged,
         d4sigma_plain_m: plain.d4sigma_m,
         peak_irradiance_w_m2: peak,

@@ -20,7 +20,7 @@
 //! * `probes[]` — `name`, `z_m`, `grid`, `power_w`, `power_fraction`
 //!   (probe power / source power), `centroid_m [x, y]`, `d4sigma_m [x, y]`
 //!   (ISO 11146 with the iterated 3× integration area), `d4sigma_principal_m
-//!   [major, minor]`, `azimuth_rad`, `iso_converged`, `d4sigma_plain_m`
+//!   [major, minor]`, `azimuth_rad`, `ellipticity` (minor/major), `iso_converged`, `d4sigma_plain_m`
 //!   (whole-grid second moments, no integration area), `peak_irradiance_w_m2`,
 //!   `peak_location_m`, `axis_irradiance_w_m2`, `encircled_radius_m` `{"0.5", "0.865", "0.95"}` about
 //!   the centroid, `ensquared_half_width_m` (same fractions, centred
@@ -246,8 +246,12 @@ pub struct ProbeRecord {
     pub d4sigma_m: [f64; 2],
     /// Principal D4σ diameters `[major, minor]`, metres.
     pub d4sigma_principal_m: [f64; 2],
-    /// Azimuth of the major axis from +x, radians.
+    /// Azimuth of the major axis from +x, radians (not meaningful for a
+    /// round beam: see `ellipticity`).
     pub azimuth_rad: f64,
+    /// Minor over major principal D4σ diameter; ISO 11146 calls a beam
+    /// round when this is at least 0.87.
+    pub ellipticity: f64,
     /// Whether the ISO integration-area iteration converged.
     pub iso_converged: bool,
     /// Whole-grid (unwindowed) D4σ `[x, y]`, metres.
