@@ -433,6 +433,18 @@ pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
                     .get(&spec.name)
                     .map(|&r| measure::strehl_ratio(peak, r));
                 record.strehl_marechal = Some(measure::marechal(rms_waves_sq.get().sqrt()));
+                // The Strehl ratio is a focal-plane figure: away from the
+                // paraxial focus a peak ratio measures defocus, not quality.
+                if let Some(p) = point {
+                    let (from_waist, rayleigh) = (p.q.re, -p.q.im);
+                    if from_waist.abs() > rayleigh {
+                        record.warnings.push(format!(
+                            "Strehl is defined at a focus, but this probe is {} from the paraxial waist (Rayleigh length {}): the ratio here measures the beam's peak, not its focusability",
+                            fmt_len(from_waist.abs()),
+                            fmt_len(rayleigh)
+                        ));
+                    }
+                }
             }
             probes.push(record);
             Ok(())

@@ -783,3 +783,35 @@ fn erf(x: f64) -> f64 {
             * (-x * x).exp();
     y.copysign(x)
 }
+
+#[test]
+fn strehl_away_from_a_focus_is_flagged() {
+    // Strehl ratio is defined at a focus (Born & Wolf §9.1, from memory): a
+    // probe 5 mm after a 100 mm lens, far outside the 21 mm Rayleigh length
+    // of its focus, gets a warning; the same probe at the focus does not.
+    let dir = tempfile::tempdir().unwrap();
+    let make = |length: &str| {
+        GOOD.replace(
+            "[[element]]\nkind = \"space\"\nlength = \"10 mm\"",
+            &format!(
+                "[[element]]\nkind = \"aberration\"\nradius = \"1 mm\"\nzernike = {{ 11 = \"0.05 wave\" }}\n\n[[element]]\nkind = \"lens\"\nfocal_length = \"100 mm\"\n\n[[element]]\nkind = \"space\"\nlength = \"{length}\"\nmethod = \"fresnel\""
+            ),
+        )
+        .replace("name = \"end\"", "name = \"end\"\nstrehl = true")
+    };
+    for (length, flagged) in [("5 mm", true), ("100 mm", false)] {
+        std::fs::write(dir.path().join("a.toml"), make(length)).unwrap();
+        let o = run_in(
+            dir.path(),
+            &["run", "a.toml", "-o", "out", "--quiet", "--force"],
+        );
+        assert!(o.status.success(), "{:?}", text(&o));
+        let r = report(&dir.path().join("out"));
+        let w = probe(&r, "end")["warnings"].to_string();
+        assert_eq!(
+            w.contains("Strehl is defined at a focus"),
+            flagged,
+            "{length}: {w}"
+        );
+    }
+}
