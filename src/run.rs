@@ -59,8 +59,8 @@ pub struct RunOptions<'a> {
 /// 6 MiB (binary, FFT plans, per-thread scratch). Calibrated against the
 /// maximum resident set size of `/usr/bin/time -v` (docs/performance.md):
 ///
-/// - source check: 32 B/sample (the source is sampled twice at once to
-///   measure it and its captured fraction);
+/// - source: 24 B/sample (the field, sampled once and handed to the run,
+///   and an irradiance map when its width has to be measured);
 /// - angular-spectrum step: 16 B field + the transfer function's even
 ///   quadrant, `16·(n/2+1)²` bytes; a Fresnel step needs only the field;
 /// - probe: 24 B (field + irradiance); saving any picture or array adds
@@ -69,8 +69,8 @@ pub struct RunOptions<'a> {
 ///   (+32 B/sample) and its quadrant tables (`25·(n/2+1)²` bytes); a modal
 ///   decomposition holds +24 B/sample.
 ///
-/// A one-step 4096² run is estimated at 518 MiB (measured 517 MiB); bytes
-/// per sample are at least 32, so n = 8192 needs about 2.0 GiB.
+/// A one-step 4096² run is estimated at 390 MiB (measured 406 MiB); bytes
+/// per sample are at least 24, so n = 8192 needs about 1.5 GiB.
 pub fn estimate_memory_bytes(plan: &Plan) -> f64 {
     let n = plan
         .steps
@@ -83,7 +83,7 @@ pub fn estimate_memory_bytes(plan: &Plan) -> f64 {
     let half = (n / 2.0).floor() + 1.0;
     let quadrant = half * half;
     let mib = 1024.0 * 1024.0;
-    let source_check = 32.0 * samples;
+    let source_check = 24.0 * samples;
     let asm_step = if plan.steps.iter().any(|s| {
         matches!(&s.op, Operation::Space { method, .. } if *method != crate::propagate::Method::Fresnel)
     }) {
@@ -191,21 +191,33 @@ pub fn second_moment_radius(d4sigma_m: [f64; 2]) -> f64 {
     ((d4sigma_m[0].powi(2) + d4sigma_m[1].powi(2)) / 8.0).sqrt()
 }
 
-/// Static plan warnings plus the paraxial trace (used by `check` and `run`).
-///
-/// # Errors
-/// As [`crate::layout::Source::field`] (the source is sampled to measure it).
-pub fn plan_warnings(plan: &Plan) -> Result<Vec<String>> {
+/// What planning learns from the sampled source, kept so that the run does
+/// not sample it again.
+struct Prepared {
+    /// Static plan warnings and the source-window check.
+    warnings: Vec<String>,
+    /// `sqrt(M²)` of the source.
+    width_factor: f64,
+    /// The source field, handed to the main path.
+    source: Field,
+}
+
+/// Checks memory, samples the source once, and collects the plan warnings.
+fn prepare(plan: &Plan) -> Result<Prepared> {
     check_memory(plan)?;
     let source = plan
         .source
         .field(plan.grid, plan.wavelength_m, plan.power_w)?;
     let trace = paraxial::trace(plan);
-    let factor = source_width_factor(plan, &source);
+    let width_factor = source_width_factor(plan, &source);
     let mut warnings = plan.warnings.clone();
-    let captured = plan
-        .source
-        .captured_fraction(plan.grid, plan.wavelength_m)?;
+    // Closed-form sources carry the layout's power analytically, so the
+    // power on the grid says how much of the beam the window holds.
+    let captured = if plan.source.is_normalised_on_grid() {
+        1.0
+    } else {
+        source.power_w() / plan.power_w
+    };
     if 1.0 - captured > BORDER_WARNING_FRACTION {
         warnings.push(format!(
             "source: the {} window holds only {:.6} of the source power; the rest is not simulated (the field is not rescaled to make up for it): enlarge the window n·dx",
@@ -213,8 +225,21 @@ pub fn plan_warnings(plan: &Plan) -> Result<Vec<String>> {
             captured
         ));
     }
-    warnings.extend(advisor::advise(plan, trace.as_ref(), factor));
-    Ok(warnings)
+    warnings.extend(advisor::advise(plan, trace.as_ref(), width_factor));
+    Ok(Prepared {
+        warnings,
+        width_factor,
+        source,
+    })
+}
+
+/// Static plan warnings (used by `check`; `run` reports the same).
+///
+/// # Errors
+/// [`Error::Layout`] if the grid is too large for memory; as
+/// [`crate::layout::Source::field`] (the source is sampled to measure it).
+pub fn plan_warnings(plan: &Plan) -> Result<Vec<String>> {
+    prepare(plan).map(|p| p.warnings)
 }
 
 /// Power in the outer `BORDER_FRACTION` of the grid, watts.
@@ -307,16 +332,15 @@ fn apply_step(
     Ok((t, warnings))
 }
 
-/// Steps the source through the plan, calling `at_probe` at every probe.
+/// Steps `source` through the plan, calling `at_probe` at every probe.
 fn execute(
     plan: &Plan,
+    source: Field,
     skip_aberrations: bool,
     mut on_step: impl FnMut(&Step, &Transmission, Vec<String>, &Field) -> Result<()>,
     mut at_probe: impl FnMut(&Step, &ProbeSpec, &Field) -> Result<()>,
 ) -> Result<()> {
-    let mut field = plan
-        .source
-        .field(plan.grid, plan.wavelength_m, plan.power_w)?;
+    let mut field = source;
     for (i, step) in plan.steps.iter().enumerate() {
         let next_merged = plan.steps.get(i + 1).and_then(|s| match s.op {
             Operation::Space { merged_lens_m, .. } => merged_lens_m,
@@ -338,12 +362,11 @@ fn execute(
 /// Any engine error (bad sampling that makes a width undefined, files that
 /// cannot be written) and [`Error::TooLarge`] before allocating.
 pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
-    let warnings = plan_warnings(plan)?;
-    let source = plan
-        .source
-        .field(plan.grid, plan.wavelength_m, plan.power_w)?;
-    let width_factor = source_width_factor(plan, &source);
-    drop(source);
+    let Prepared {
+        warnings,
+        width_factor,
+        source,
+    } = prepare(plan)?;
     let trace = paraxial::trace(plan);
     let total = plan.steps.len();
     let needs_reference = plan
@@ -360,30 +383,13 @@ pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
         }
     };
 
-    // Strehl reference: the same path without aberrations, peaks only.
-    let mut reference_peaks: BTreeMap<String, f64> = BTreeMap::new();
-    if needs_reference {
-        report_progress(0, "reference path without aberrations".into());
-        execute(
-            plan,
-            true,
-            |_, _, _, _| Ok(()),
-            |_, spec, field| {
-                if spec.strehl {
-                    let (peak, _) = measure::peak(&field.irradiance(), field.grid());
-                    reference_peaks.insert(spec.name.clone(), peak);
-                }
-                Ok(())
-            },
-        )?;
-    }
-
     let mut elements = Vec::with_capacity(total);
     let mut probes = Vec::new();
     // Shared by both callbacks: aberrations seen so far (for Maréchal).
     let rms_waves_sq = std::cell::Cell::new(0.0);
     execute(
         plan,
+        source,
         false,
         |step, t, step_warnings, field| {
             if let Operation::Aberration(a) = &step.op {
@@ -428,10 +434,6 @@ pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
                 options.out_dir,
             )?;
             if spec.strehl {
-                let (peak, _) = measure::peak(&field.irradiance(), field.grid());
-                record.strehl = reference_peaks
-                    .get(&spec.name)
-                    .map(|&r| measure::strehl_ratio(peak, r));
                 record.strehl_marechal = Some(measure::marechal(rms_waves_sq.get().sqrt()));
                 // The Strehl ratio is a focal-plane figure: away from the
                 // paraxial focus a peak ratio measures defocus, not quality.
@@ -450,6 +452,38 @@ pub fn run(plan: &Plan, options: &RunOptions) -> Result<Report> {
             Ok(())
         },
     )?;
+
+    // Strehl reference: the same path without aberrations, peaks only. The
+    // source is sampled again rather than kept, so that the two paths never
+    // hold fields at the same time.
+    if needs_reference {
+        report_progress(total, "reference path without aberrations".into());
+        let mut reference_peaks: BTreeMap<String, f64> = BTreeMap::new();
+        let source = plan
+            .source
+            .field(plan.grid, plan.wavelength_m, plan.power_w)?;
+        execute(
+            plan,
+            source,
+            true,
+            |_, _, _, _| Ok(()),
+            |_, spec, field| {
+                if spec.strehl {
+                    let (peak, _) = measure::peak(&field.irradiance(), field.grid());
+                    reference_peaks.insert(spec.name.clone(), peak);
+                }
+                Ok(())
+            },
+        )?;
+        for record in &mut probes {
+            if let Some(&reference) = reference_peaks.get(&record.name) {
+                record.strehl = Some(measure::strehl_ratio(
+                    record.peak_irradiance_w_m2,
+                    reference,
+                ));
+            }
+        }
+    }
 
     Ok(Report {
         version: env!("CARGO_PKG_VERSION").to_string(),
@@ -487,18 +521,24 @@ fn measure_probe(
         ));
     }
     let (peak, peak_at) = measure::peak(&irradiance, grid);
-    let mut encircled = BTreeMap::new();
-    let mut ensquared = BTreeMap::new();
-    for fraction in [0.5, 0.865, 0.95] {
-        encircled.insert(
-            format!("{fraction}"),
-            measure::radius_for_fraction(field, iso.centroid_m, fraction),
-        );
-        ensquared.insert(
-            format!("{fraction}"),
-            measure::half_width_for_fraction(field, iso.centroid_m, fraction),
-        );
-    }
+    const FRACTIONS: [f64; 3] = [0.5, 0.865, 0.95];
+    let by_fraction = |values: Vec<Result<f64>>| -> BTreeMap<String, f64> {
+        FRACTIONS
+            .iter()
+            .zip(values)
+            .map(|(f, v)| (format!("{f}"), v.unwrap_or(f64::NAN)))
+            .collect()
+    };
+    let encircled = by_fraction(measure::radii_for_fractions(
+        field,
+        iso.centroid_m,
+        &FRACTIONS,
+    ));
+    let ensquared = by_fraction(measure::half_widths_for_fractions(
+        field,
+        iso.centroid_m,
+        &FRACTIONS,
+    ));
     // The encircled-energy curve: 48 radii out to twice the 95 % radius.
     let r95 = encircled.get("0.95").copied().unwrap_or(f64::NAN);
     let r_max = if r95.is_finite() && r95 > 0.0 {

@@ -81,8 +81,9 @@ impl Source {
     /// Closed-form sources (modes and superpositions) carry `power_w` in
     /// their analytic normalisation, so a window too small for the beam
     /// shows up as missing power rather than being rescaled into a too-high
-    /// irradiance; [`Source::captured_fraction`] says how much the grid
-    /// holds. Sampled sources (flat-top, files) are normalised on the grid.
+    /// irradiance (the field's power over `power_w` is the fraction the
+    /// grid holds). Sampled sources (flat-top, files) are normalised on the
+    /// grid ([`Source::is_normalised_on_grid`]).
     ///
     /// # Errors
     /// [`crate::Error::Physics`] if the source has no power on the grid.
@@ -123,18 +124,11 @@ impl Source {
         Ok(field)
     }
 
-    /// Fraction of a closed-form source's power that the grid holds
-    /// (1 for sampled sources, which are normalised on the grid).
-    ///
-    /// # Errors
-    /// As [`Source::field`].
-    pub fn captured_fraction(&self, grid: Grid, wavelength_m: f64) -> Result<f64> {
-        match self {
-            Source::Mode { .. } | Source::Superposition { .. } => {
-                Ok(self.field(grid, wavelength_m, 1.0)?.power_w())
-            }
-            _ => Ok(1.0),
-        }
+    /// True for sources normalised on the grid (flat-top and sampled
+    /// files); closed-form sources carry their power analytically, so a
+    /// too-small window shows as missing power.
+    pub fn is_normalised_on_grid(&self) -> bool {
+        matches!(self, Source::FlatTop { .. } | Source::Sampled { .. })
     }
 
     /// The embedded Gaussian and its waist position, for the paraxial check

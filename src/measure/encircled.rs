@@ -94,6 +94,61 @@ fn weighted_sum<T: Irradiance>(
     rows.iter().sum()
 }
 
+/// Cumulative power (in units of `Σ|U|²`) of pixels whose centre lies
+/// within `(k+1)·bin` of `centre`, for every bin `k` out to the grid's
+/// corners; per-row histograms are merged in row order (deterministic).
+fn cumulative_by_distance<T: Irradiance + Sync>(
+    values: &Array2<T>,
+    grid: Grid,
+    centre: [f64; 2],
+    shape: Shape,
+    bin: f64,
+) -> Vec<f64> {
+    let half = grid.width_m() / 2.0;
+    let reach = 2f64.sqrt() * (half + centre[0].abs().max(centre[1].abs())) + grid.spacing_m();
+    let bins = (reach / bin).ceil() as usize + 1;
+    // A fixed number of row bands (not one per thread), each with its own
+    // histogram, merged in band order: the sums do not depend on threads.
+    const BANDS: usize = 32;
+    let band_rows = grid.n().div_ceil(BANDS).max(1);
+    let bands: Vec<Vec<f64>> = values
+        .axis_chunks_iter(Axis(0), band_rows)
+        .into_par_iter()
+        .enumerate()
+        .map(|(b, band)| {
+            let mut histogram = vec![0.0; bins];
+            for (r, row) in band.axis_iter(Axis(0)).enumerate() {
+                let y = grid.x_m(b * band_rows + r) - centre[1];
+                for (ix, v) in row.iter().enumerate() {
+                    let e = v.irradiance();
+                    if e == 0.0 {
+                        continue;
+                    }
+                    let x = grid.x_m(ix) - centre[0];
+                    let d = match shape {
+                        Shape::Circle => (x * x + y * y).sqrt(),
+                        Shape::Square => x.abs().max(y.abs()),
+                    };
+                    histogram[((d / bin) as usize).min(bins - 1)] += e;
+                }
+            }
+            histogram
+        })
+        .collect();
+    let mut histogram = vec![0.0; bins];
+    for band in &bands {
+        for (h, e) in histogram.iter_mut().zip(band) {
+            *h += e;
+        }
+    }
+    let mut total = 0.0;
+    for h in histogram.iter_mut() {
+        total += *h;
+        *h = total;
+    }
+    histogram
+}
+
 /// Fraction of `[c − dx/2, c + dx/2]` inside `[−h, h]`.
 fn overlap_1d(c: f64, dx: f64, h: f64) -> f64 {
     let lo = (c - dx / 2.0).max(-h);
@@ -174,9 +229,18 @@ pub fn encircled_energy_irradiance(
 
 /// Encircled-energy fractions at each radius in `radii_m`.
 pub fn encircled_curve(field: &Field, centre_m: [f64; 2], radii_m: &[f64]) -> Vec<f64> {
-    radii_m
+    curve(field, centre_m, radii_m, Shape::Circle)
+}
+
+/// Fractions at each size, with the total computed once.
+fn curve(field: &Field, centre_m: [f64; 2], sizes_m: &[f64], shape: Shape) -> Vec<f64> {
+    let p = sum_norm_sqr(&field.values);
+    if !(p > 0.0 && p.is_finite()) {
+        return vec![0.0; sizes_m.len()];
+    }
+    sizes_m
         .iter()
-        .map(|&r| encircled_energy(field, centre_m, r))
+        .map(|&r| weighted_sum(&field.values, field.grid(), centre_m, r, shape) / p)
         .collect()
 }
 
@@ -198,10 +262,7 @@ pub fn ensquared_energy(field: &Field, centre_m: [f64; 2], half_width_m: f64) ->
 
 /// Ensquared-energy fractions at each half-width in `half_widths_m`.
 pub fn ensquared_curve(field: &Field, centre_m: [f64; 2], half_widths_m: &[f64]) -> Vec<f64> {
-    half_widths_m
-        .iter()
-        .map(|&h| ensquared_energy(field, centre_m, h))
-        .collect()
+    curve(field, centre_m, half_widths_m, Shape::Square)
 }
 
 /// Smallest radius holding `fraction` of the power, by bisection on the
@@ -233,40 +294,101 @@ fn solve_for_fraction(
     fraction: f64,
     shape: Shape,
 ) -> Result<f64> {
-    if !(fraction > 0.0 && fraction < 1.0) {
-        return Err(Error::out_of_range(
-            "energy fraction",
-            fraction,
-            "expected a number between 0 and 1, exclusive",
-        ));
-    }
+    solve_for_fractions(field, centre_m, &[fraction], shape)
+        .pop()
+        .expect("one fraction in, one result out")
+}
+
+/// Radii about `centre_m` holding each of `fractions` of the power, sharing
+/// one pass over the field; each entry as [`try_radius_for_fraction`].
+pub fn radii_for_fractions(
+    field: &Field,
+    centre_m: [f64; 2],
+    fractions: &[f64],
+) -> Vec<Result<f64>> {
+    solve_for_fractions(field, centre_m, fractions, Shape::Circle)
+}
+
+/// Half-widths of centred squares holding each of `fractions` of the power,
+/// sharing one pass over the field; each entry as [`half_width_for_fraction`].
+pub fn half_widths_for_fractions(
+    field: &Field,
+    centre_m: [f64; 2],
+    fractions: &[f64],
+) -> Vec<Result<f64>> {
+    solve_for_fractions(field, centre_m, fractions, Shape::Square)
+}
+
+fn solve_for_fractions(
+    field: &Field,
+    centre_m: [f64; 2],
+    fractions: &[f64],
+    shape: Shape,
+) -> Vec<Result<f64>> {
     let p = sum_norm_sqr(&field.values);
-    if !(p > 0.0 && p.is_finite()) {
-        return Err(Error::Physics(
-            "cannot find an encircled-energy radius of a field with zero power".into(),
-        ));
-    }
     let grid = field.grid();
-    let half = grid.width_m() / 2.0;
-    let mut hi = 2f64.sqrt() * (half + centre_m[0].abs().max(centre_m[1].abs()));
     let f = |r: f64| weighted_sum(&field.values, grid, centre_m, r, shape) / p;
-    if f(hi) < fraction {
-        return Err(Error::Physics(format!(
-            "the grid holds only {:.6} of the power, less than the fraction {fraction}",
-            f(hi)
-        )));
-    }
-    let mut lo = 0.0;
-    let tol = 1e-6 * grid.spacing_m();
-    while hi - lo > tol {
-        let mid = 0.5 * (lo + hi);
-        if f(mid) >= fraction {
-            hi = mid;
-        } else {
-            lo = mid;
-        }
-    }
-    Ok(0.5 * (lo + hi))
+    // Bracket each root with one shared pass: the pixel-centre cumulative
+    // C(d) of the power against distance (Euclidean for circles, Chebyshev
+    // for squares). Pixels whose centres lie within d − m are wholly inside,
+    // and none beyond d + m is touched (m = dx/√2 or dx/2), so
+    // C(d − m) ≤ f(d) ≤ C(d + m): the root lies in [d* − bin − m, d* + m]
+    // around the first bin edge d* where C reaches the fraction. Bisection
+    // then only evaluates regions about the size of the answer.
+    let dx = grid.spacing_m();
+    let margin = match shape {
+        Shape::Circle => dx * std::f64::consts::FRAC_1_SQRT_2,
+        Shape::Square => dx / 2.0,
+    };
+    let bin = dx / 4.0;
+    let cumulative = if p > 0.0 && p.is_finite() {
+        cumulative_by_distance(&field.values, grid, centre_m, shape, bin)
+    } else {
+        Vec::new()
+    };
+    fractions
+        .iter()
+        .map(|&fraction| {
+            if !(fraction > 0.0 && fraction < 1.0) {
+                return Err(Error::out_of_range(
+                    "energy fraction",
+                    fraction,
+                    "expected a number between 0 and 1, exclusive",
+                ));
+            }
+            if !(p > 0.0 && p.is_finite()) {
+                return Err(Error::Physics(
+                    "cannot find an encircled-energy radius of a field with zero power".into(),
+                ));
+            }
+            let Some(first) = cumulative.iter().position(|&c| c >= fraction * p) else {
+                let held = cumulative.last().copied().unwrap_or(0.0) / p;
+                return Err(Error::Physics(format!(
+                    "the grid holds only {held:.6} of the power, less than the fraction {fraction}"
+                )));
+            };
+            let edge = (first + 1) as f64 * bin;
+            let mut hi = edge + margin;
+            let mut lo = (edge - bin - margin).max(0.0);
+            if f(hi) < fraction {
+                // Round-off at the bracket edge: widen once to be safe.
+                hi += dx;
+            }
+            if f(lo) >= fraction {
+                lo = 0.0;
+            }
+            let tol = 1e-6 * dx;
+            while hi - lo > tol {
+                let mid = 0.5 * (lo + hi);
+                if f(mid) >= fraction {
+                    hi = mid;
+                } else {
+                    lo = mid;
+                }
+            }
+            Ok(0.5 * (lo + hi))
+        })
+        .collect()
 }
 
 /// Power passing `aperture`, `Σ T·|U|²·dx²`, watts (area-weighted edges;

@@ -31,7 +31,8 @@ pub use caustic::{caustic, AxisFit, Caustic, CausticOptions};
 pub use encircled::{
     aperture_fraction, aperture_power_w, encircled_curve, encircled_energy,
     encircled_energy_irradiance, encircled_power_w, ensquared_curve, ensquared_energy,
-    ensquared_power_w, half_width_for_fraction, radius_for_fraction, try_radius_for_fraction,
+    ensquared_power_w, half_width_for_fraction, half_widths_for_fractions, radii_for_fractions,
+    radius_for_fraction, try_radius_for_fraction,
 };
 pub use modes::{decompose, embedded_gaussian, Basis, BasisChoice, Decomposition, ModeTerm};
 pub use moments::{iso_moments, iso_moments_of, plain_moments, plain_moments_of, Moments};
