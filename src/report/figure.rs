@@ -23,6 +23,17 @@ static FONT_BYTES: &[u8] = include_bytes!("../../assets/DejaVuSans.ttf");
 
 /// Registers the bundled font once, so text renders on machines without
 /// system fonts.
+/// Refuses to draw data holding `bad` non-finite values, naming `what`.
+pub(crate) fn refuse_non_finite(bad: usize, what: impl FnOnce() -> String) -> Result<()> {
+    if bad > 0 {
+        return Err(Error::NonFinite {
+            what: what(),
+            count: bad,
+        });
+    }
+    Ok(())
+}
+
 pub(crate) fn ensure_font(path: &Path) -> Result<()> {
     static REGISTERED: OnceLock<std::result::Result<(), String>> = OnceLock::new();
     REGISTERED

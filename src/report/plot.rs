@@ -16,7 +16,7 @@ use plotters::prelude::*;
 
 use super::figure::{
     draw_error, encode_png, ensure_font, format_sig, format_tick, irradiance_unit, length_unit,
-    nice_step, ticks, FONT,
+    nice_step, refuse_non_finite, ticks, FONT,
 };
 use crate::error::{Error, Result};
 
@@ -117,12 +117,7 @@ pub fn write_caustic_plot(path: &Path, plot: &CausticPlot) -> Result<()> {
             .flat_map(|(a, b, c)| [a, b, c])
             .filter(|v| !v.is_finite())
             .count();
-    if bad > 0 {
-        return Err(Error::NonFinite {
-            what: format!("caustic plot data for {}", path.display()),
-            count: bad,
-        });
-    }
+    refuse_non_finite(bad, || format!("caustic plot data for {}", path.display()))?;
     ensure_font(path)?;
 
     let z_lo = plot.z_m.iter().cloned().fold(f64::INFINITY, f64::min);
@@ -302,12 +297,9 @@ pub fn write_radial_profile_plot(
         .chain(reference.map(|r| r.1).unwrap_or(&[]))
         .filter(|v| !v.is_finite())
         .count();
-    if bad > 0 {
-        return Err(Error::NonFinite {
-            what: format!("radial profile data for {}", path.display()),
-            count: bad,
-        });
-    }
+    refuse_non_finite(bad, || {
+        format!("radial profile data for {}", path.display())
+    })?;
     ensure_font(path)?;
 
     let r_max = r_m.iter().cloned().fold(0.0, f64::max);

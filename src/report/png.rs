@@ -38,7 +38,7 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 use super::colormap::Colormap;
 use super::figure::{
     draw_error, encode_png, ensure_font, format_length, format_sig, format_tick, irradiance_unit,
-    length_unit, nice_step, ticks, Unit, FONT,
+    length_unit, nice_step, refuse_non_finite, ticks, Unit, FONT,
 };
 use crate::error::{Error, Result};
 use crate::field::Field;
@@ -382,12 +382,7 @@ fn render(
         .iter()
         .filter(|v| !(v.re.is_finite() && v.im.is_finite()))
         .count();
-    if bad > 0 {
-        return Err(Error::NonFinite {
-            what: format!("field for image {}", path.display()),
-            count: bad,
-        });
-    }
+    refuse_non_finite(bad, || format!("field for image {}", path.display()))?;
     ensure_font(path)?;
 
     let grid = field.grid();
