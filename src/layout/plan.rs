@@ -39,6 +39,8 @@ pub struct Plan {
     pub steps: Vec<Step>,
     /// Sampling warnings found while planning.
     pub warnings: Vec<String>,
+    /// Every input file (NPY, PNG) the layout names, as resolved paths.
+    pub inputs: Vec<PathBuf>,
 }
 
 /// The field at the source plane.

@@ -72,7 +72,11 @@ pub fn load(path: &Path) -> Result<Plan> {
 /// # Errors
 /// [`Error::Layout`] for anything wrong in the text.
 pub fn parse(text: &str, path: &Path) -> Result<Plan> {
-    let ctx = Ctx { text, path };
+    let ctx = Ctx {
+        text,
+        path,
+        inputs: std::cell::RefCell::new(Vec::new()),
+    };
     let file: LayoutFile = toml::from_str(text).map_err(|e| {
         let (line, message) = ctx.describe_toml_error(&e);
         Error::Layout {
@@ -87,6 +91,8 @@ pub fn parse(text: &str, path: &Path) -> Result<Plan> {
 struct Ctx<'a> {
     text: &'a str,
     path: &'a Path,
+    /// Every input file the layout names, in order of appearance.
+    inputs: std::cell::RefCell<Vec<PathBuf>>,
 }
 
 impl Ctx<'_> {
@@ -368,6 +374,7 @@ impl Ctx<'_> {
             source,
             steps,
             warnings: Vec::new(),
+            inputs: self.inputs.borrow().clone(),
         })
     }
 
@@ -596,11 +603,13 @@ impl Ctx<'_> {
 
     fn resolve(&self, file: &str) -> PathBuf {
         let p = Path::new(file);
-        if p.is_absolute() {
+        let resolved = if p.is_absolute() {
             p.to_path_buf()
         } else {
             self.path.parent().unwrap_or(Path::new(".")).join(p)
-        }
+        };
+        self.inputs.borrow_mut().push(resolved.clone());
+        resolved
     }
 
     fn check_size<T>(

@@ -1,7 +1,7 @@
 //! Turns parsed arguments into library calls and prints results.
 
-use std::io::{IsTerminal, Write};
-use std::path::{Path, PathBuf};
+use std::io::IsTerminal;
+use std::path::Path;
 use std::process::ExitCode;
 
 use beamwright::layout::advisor::fmt_len;
@@ -11,6 +11,8 @@ use beamwright::run::{self, Progress, RunOptions};
 use beamwright::{Error, Result};
 
 use crate::args::{Cli, Command};
+use crate::console;
+use crate::output::{self, OutputDir};
 
 /// Runs one command; `Err` maps to exit status 2.
 pub fn dispatch(cli: Cli) -> Result<ExitCode> {
@@ -46,24 +48,17 @@ fn set_threads(threads: Option<usize>) -> Result<()> {
     Ok(())
 }
 
-fn io_err(path: &Path) -> impl FnOnce(std::io::Error) -> Error + '_ {
-    move |source| Error::Io {
-        path: path.to_path_buf(),
+fn stdout_err(source: std::io::Error) -> Error {
+    Error::Io {
+        path: "standard output".into(),
         source,
     }
 }
 
-/// A sibling temporary directory, renamed into place when the run succeeds.
-struct Staging {
-    dir: PathBuf,
-    keep: bool,
-}
-
-impl Drop for Staging {
-    fn drop(&mut self) {
-        if !self.keep {
-            let _ = std::fs::remove_dir_all(&self.dir);
-        }
+fn io_err(path: &Path) -> impl FnOnce(std::io::Error) -> Error + '_ {
+    move |source| Error::Io {
+        path: path.to_path_buf(),
+        source,
     }
 }
 
@@ -84,33 +79,11 @@ fn run_layout(
         }
     }
     let plan = layout::load(layout_path)?;
-    let non_empty = out.exists()
-        && (out.is_file()
-            || std::fs::read_dir(out)
-                .map_err(io_err(out))?
-                .next()
-                .is_some());
-    if non_empty && !force {
-        return Err(Error::File {
-            path: out.to_path_buf(),
-            message: "output directory exists and is not empty; choose another with -o or replace it with --force".into(),
-        });
-    }
+    let mut protected = vec![layout_path.to_path_buf()];
+    protected.extend(plan.inputs.iter().cloned());
+    let output = OutputDir::prepare(out, &protected, force)?;
     run::check_memory(&plan)?;
-    let parent = match out.parent() {
-        Some(p) if !p.as_os_str().is_empty() => p.to_path_buf(),
-        _ => PathBuf::from("."),
-    };
-    std::fs::create_dir_all(&parent).map_err(io_err(&parent))?;
-    let stem = out
-        .file_name()
-        .map(|s| s.to_string_lossy().into_owned())
-        .unwrap_or_else(|| "out".into());
-    let mut staging = Staging {
-        dir: parent.join(format!(".{stem}.partial-{}", std::process::id())),
-        keep: false,
-    };
-    std::fs::create_dir_all(&staging.dir).map_err(io_err(&staging.dir))?;
+    output::install_signal_handlers()?;
 
     let bar = (!quiet && std::io::stderr().is_terminal()).then(|| {
         let bar = indicatif::ProgressBar::new(plan.steps.len() as u64);
@@ -129,33 +102,28 @@ fn run_layout(
     let report = run::run(
         &plan,
         &RunOptions {
-            out_dir: Some(&staging.dir),
+            out_dir: Some(output.staging()),
             progress: Some(&progress),
         },
-    )?;
+    )
+    .map_err(|e| output.user_facing(e))?;
     if let Some(bar) = &bar {
         bar.finish_and_clear();
     }
-    let json_path = staging.dir.join("report.json");
+    let json_path = output.staging().join("report.json");
     let text = serde_json::to_string_pretty(&report)
         .map_err(|e| Error::Physics(format!("cannot serialise the report: {e}")))?;
-    std::fs::write(&json_path, text + "\n").map_err(io_err(&json_path))?;
-    if out.exists() {
-        if out.is_dir() {
-            std::fs::remove_dir_all(out).map_err(io_err(out))?;
-        } else {
-            std::fs::remove_file(out).map_err(io_err(out))?;
-        }
-    }
-    std::fs::rename(&staging.dir, out).map_err(io_err(out))?;
-    staging.keep = true;
+    std::fs::write(&json_path, text + "\n")
+        .map_err(io_err(&json_path))
+        .map_err(|e| output.user_facing(e))?;
+    output.commit()?;
 
     print_summary(&report, out);
     if let Some(tolerance_pct) = strict_tolerance_pct {
         let failures = strict_failures(&plan, &report, tolerance_pct / 100.0);
         if !failures.is_empty() {
             for f in &failures {
-                eprintln!("beamwright: strict: {f}");
+                console::error(&format!("strict: {f}"));
             }
             return Ok(ExitCode::from(1));
         }
@@ -169,10 +137,10 @@ pub fn strict_failures(plan: &Plan, report: &Report, tolerance: f64) -> Vec<Stri
     let mut out = Vec::new();
     for probe in &report.probes {
         let Some(p) = &probe.paraxial else {
-            eprintln!(
-                "beamwright: strict: probe '{}' not checked: the source has no paraxial prediction (flat-top or sampled source)",
+            console::error(&format!(
+                "strict: probe '{}' not checked: the source has no paraxial prediction (flat-top or sampled source)",
                 probe.name
-            );
+            ));
             continue;
         };
         if p.width_deviation.abs() <= tolerance {
@@ -332,7 +300,7 @@ fn print_summary(report: &Report, out: &Path) {
         s.push_str(&format!("warning: {w}\n"));
     }
     s.push_str(&format!("wrote {}\n", out.join("report.json").display()));
-    let _ = std::io::stdout().write_all(s.as_bytes());
+    let _ = console::out(&s);
 }
 
 fn check(layout_path: &Path) -> Result<ExitCode> {
@@ -401,19 +369,19 @@ fn check(layout_path: &Path) -> Result<ExitCode> {
     for w in &warnings {
         s.push_str(&format!("warning: {w}\n"));
     }
-    let _ = std::io::stdout().write_all(s.as_bytes());
+    console::out(&s).map_err(stdout_err)?;
     Ok(ExitCode::SUCCESS)
 }
 
 fn verify() -> Result<ExitCode> {
     let results = beamwright::verify::run_checks();
-    let _ = std::io::stdout().write_all(beamwright::verify::format_table(&results).as_bytes());
+    console::out(&beamwright::verify::format_table(&results)).map_err(stdout_err)?;
     let failed = results.iter().filter(|r| !r.passed).count();
     if failed > 0 {
-        eprintln!(
-            "beamwright: verify: {failed} of {} checks failed",
+        console::error(&format!(
+            "verify: {failed} of {} checks failed",
             results.len()
-        );
+        ));
         return Ok(ExitCode::from(1));
     }
     Ok(ExitCode::SUCCESS)
@@ -425,7 +393,7 @@ fn examples(name: Option<&str>, out: Option<&Path>) -> Result<ExitCode> {
         for e in beamwright::examples::ALL {
             s.push_str(&format!("{:<16} {}\n", e.name, e.summary));
         }
-        let _ = std::io::stdout().write_all(s.as_bytes());
+        console::out(&s).map_err(stdout_err)?;
         return Ok(ExitCode::SUCCESS);
     };
     let example = beamwright::examples::find(name).ok_or_else(|| {
@@ -453,7 +421,7 @@ fn examples(name: Option<&str>, out: Option<&Path>) -> Result<ExitCode> {
             std::fs::write(path, example.layout).map_err(io_err(path))?;
         }
         None => {
-            let _ = std::io::stdout().write_all(example.layout.as_bytes());
+            console::out(example.layout).map_err(stdout_err)?;
         }
     }
     Ok(ExitCode::SUCCESS)

@@ -2,6 +2,8 @@
 
 mod args;
 mod commands;
+mod console;
+mod output;
 
 use std::process::ExitCode;
 
@@ -19,7 +21,7 @@ fn main() -> ExitCode {
                     return ExitCode::SUCCESS;
                 }
             }
-            eprintln!("beamwright: {err}");
+            console::error(&err.to_string());
             ExitCode::from(2)
         }
     }
