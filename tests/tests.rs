@@ -8,3 +8,5 @@ mod cli;
 mod measure;
 /// Propagation engine against closed forms (modes, Gouy phase, Airy, Fresnel).
 mod physics;
+/// Output-folder safety under mistakes, signals and races.
+mod safety;

@@ -25,7 +25,10 @@ pub fn warning(message: &str) {
 /// error; anything else (a full disk) is returned.
 pub fn out(text: &str) -> std::io::Result<()> {
     let mut stdout = std::io::stdout().lock();
-    match stdout.write_all(text.as_bytes()).and_then(|()| stdout.flush()) {
+    match stdout
+        .write_all(text.as_bytes())
+        .and_then(|()| stdout.flush())
+    {
         Err(e) if e.kind() != std::io::ErrorKind::BrokenPipe => Err(e),
         _ => Ok(()),
     }

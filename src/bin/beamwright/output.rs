@@ -37,7 +37,8 @@ pub fn install_signal_handlers() -> Result<()> {
     use signal_hook::consts::{SIGHUP, SIGINT, SIGTERM, SIGXFSZ};
     let failed = |e: std::io::Error| Error::Physics(format!("cannot install signal handlers: {e}"));
     signal_hook::flag::register(SIGXFSZ, Arc::new(AtomicBool::new(false))).map_err(failed)?;
-    let mut signals = signal_hook::iterator::Signals::new([SIGINT, SIGTERM, SIGHUP]).map_err(failed)?;
+    let mut signals =
+        signal_hook::iterator::Signals::new([SIGINT, SIGTERM, SIGHUP]).map_err(failed)?;
     std::thread::Builder::new()
         .name("signals".into())
         .spawn(move || {
@@ -183,6 +184,8 @@ impl OutputDir {
             // still holds nothing but files a run wrote.
             match foreign_entry(&aside) {
                 Ok(None) => remove_any(&aside),
+                // An empty folder (remove_dir refuses anything else).
+                _ if std::fs::remove_dir(&aside).is_ok() => {}
                 _ => crate::console::warning(&format!(
                     "the previous output was kept at {} because it holds files beamwright did not write",
                     aside.display()
@@ -261,19 +264,31 @@ fn absolute(out: &Path) -> Result<PathBuf> {
 
 fn split(target: &Path, shown: &Path) -> Result<(PathBuf, String)> {
     match (target.parent(), target.file_name()) {
-        (Some(parent), Some(name)) => Ok((parent.to_path_buf(), name.to_string_lossy().into_owned())),
-        _ => Err(refuse(shown, "refusing to use the filesystem root as the output folder")),
+        (Some(parent), Some(name)) => {
+            Ok((parent.to_path_buf(), name.to_string_lossy().into_owned()))
+        }
+        _ => Err(refuse(
+            shown,
+            "refusing to use the filesystem root as the output folder",
+        )),
     }
 }
 
 /// Output paths that are never used, with or without `--force`.
 fn refuse_dangerous(shown: &Path, target: &Path, protected: &[PathBuf]) -> Result<()> {
     if target.parent().is_none() {
-        return Err(refuse(shown, "refusing to use the filesystem root as the output folder"));
+        return Err(refuse(
+            shown,
+            "refusing to use the filesystem root as the output folder",
+        ));
     }
-    if let Some(home) = std::env::var_os("HOME").and_then(|h| PathBuf::from(h).canonicalize().ok()) {
+    if let Some(home) = std::env::var_os("HOME").and_then(|h| PathBuf::from(h).canonicalize().ok())
+    {
         if home == target {
-            return Err(refuse(shown, "refusing to use the home folder as the output folder; name a new folder with -o"));
+            return Err(refuse(
+                shown,
+                "refusing to use the home folder as the output folder; name a new folder with -o",
+            ));
         }
     }
     if let Ok(cwd) = std::env::current_dir().and_then(|c| c.canonicalize()) {
@@ -439,7 +454,10 @@ fn parse_scratch_name(file_name: &str) -> Option<(&str, &str, u32)> {
 fn process_alive(pid: u32) -> bool {
     #[cfg(unix)]
     {
-        let Some(pid) = i32::try_from(pid).ok().and_then(rustix::process::Pid::from_raw) else {
+        let Some(pid) = i32::try_from(pid)
+            .ok()
+            .and_then(rustix::process::Pid::from_raw)
+        else {
             return false;
         };
         !matches!(
@@ -519,7 +537,10 @@ mod tests {
 
     #[test]
     fn scratch_names_parse() {
-        assert_eq!(parse_scratch_name(".out.partial-123"), Some(("out", "partial", 123)));
+        assert_eq!(
+            parse_scratch_name(".out.partial-123"),
+            Some(("out", "partial", 123))
+        );
         assert_eq!(parse_scratch_name(".a.b.old-7"), Some(("a.b", "old", 7)));
         assert_eq!(parse_scratch_name(".out.partial-x"), None);
         assert_eq!(parse_scratch_name("out.partial-1"), None);
