@@ -125,10 +125,30 @@ impl Error {
     ) -> Self {
         Error::OutOfRange {
             what: what.into(),
-            value: value.to_string(),
+            value: echo(&value.to_string()),
             expected: expected.into(),
         }
     }
+}
+
+/// A user's value as it may appear in a message: control characters
+/// escaped and anything beyond 40 characters cut with "…", so a message
+/// stays one short line whatever was written.
+pub fn echo(text: &str) -> String {
+    const MAX: usize = 40;
+    let mut out = String::new();
+    for (i, c) in text.chars().enumerate() {
+        if i == MAX {
+            out.push('…');
+            break;
+        }
+        if c.is_control() {
+            out.extend(c.escape_default());
+        } else {
+            out.push(c);
+        }
+    }
+    out
 }
 
 /// Result alias used throughout the library.

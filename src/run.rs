@@ -17,9 +17,10 @@ use ndarray::s;
 
 use crate::error::{Error, Result};
 use crate::field::Field;
+use crate::grid::Grid;
 use crate::layout::advisor::{self, fmt_len};
 use crate::layout::paraxial::{self, ParaxialPoint};
-use crate::layout::{Operation, Plan, ProbeSpec, Step};
+use crate::layout::{Operation, Plan, ProbeSpec, Source, Step};
 use crate::measure::{self, Basis, BasisChoice};
 use crate::optics::Transmission;
 use crate::propagate::{AngularSpectrum, FresnelSingleFft, Method};
@@ -124,16 +125,28 @@ pub fn estimate_memory_bytes(plan: &Plan) -> f64 {
     source_check.max(asm_step).max(probe_peak) + 6.0 * mib
 }
 
-/// The memory limit: `BEAMWRIGHT_MEMORY_LIMIT_MIB` if set, else 90 % of the
-/// available memory reported by the OS (16 GiB if unknown), bytes.
-pub fn memory_limit_bytes() -> f64 {
-    if let Some(mib) = std::env::var("BEAMWRIGHT_MEMORY_LIMIT_MIB")
-        .ok()
-        .and_then(|v| v.trim().parse::<f64>().ok())
-    {
-        return mib * 1024.0 * 1024.0;
+/// The memory limit, bytes: `BEAMWRIGHT_MEMORY_LIMIT_MIB` if set, else
+/// the smallest of 90 % of the available memory reported by the OS (16 GiB
+/// if unknown), 90 % of the process address-space limit (`ulimit -v`) and
+/// 90 % of the control group's memory limit (`memory.max`, cgroup v2, or
+/// `memory.limit_in_bytes`, v1).
+///
+/// # Errors
+/// [`Error::OutOfRange`] if `BEAMWRIGHT_MEMORY_LIMIT_MIB` is set but not a
+/// positive whole number of MiB.
+pub fn memory_limit_bytes() -> Result<f64> {
+    if let Some(text) = std::env::var_os("BEAMWRIGHT_MEMORY_LIMIT_MIB") {
+        let text = text.to_string_lossy();
+        return match text.trim().parse::<u64>() {
+            Ok(mib) if mib > 0 && mib <= 1 << 40 => Ok(mib as f64 * 1024.0 * 1024.0),
+            _ => Err(Error::out_of_range(
+                "BEAMWRIGHT_MEMORY_LIMIT_MIB",
+                crate::error::echo(&text),
+                "expected a positive whole number of MiB (for example 4096), at most 2^40",
+            )),
+        };
     }
-    std::fs::read_to_string("/proc/meminfo")
+    let available = std::fs::read_to_string("/proc/meminfo")
         .ok()
         .and_then(|text| {
             text.lines()
@@ -141,8 +154,60 @@ pub fn memory_limit_bytes() -> f64 {
                 .and_then(|l| l.split_whitespace().nth(1))
                 .and_then(|kb| kb.parse::<f64>().ok())
         })
-        .map(|kb| 0.9 * kb * 1024.0)
-        .unwrap_or(16.0 * 1024.0 * 1024.0 * 1024.0)
+        .map(|kb| kb * 1024.0)
+        .unwrap_or(16.0 * 1024.0 * 1024.0 * 1024.0);
+    let limits = [available, address_space_limit(), cgroup_limit()];
+    Ok(0.9 * limits.into_iter().fold(f64::INFINITY, f64::min))
+}
+
+/// The soft address-space limit of this process (`/proc/self/limits`),
+/// bytes; infinite when unlimited or unknown.
+fn address_space_limit() -> f64 {
+    std::fs::read_to_string("/proc/self/limits")
+        .ok()
+        .and_then(|text| {
+            text.lines()
+                .find(|l| l.starts_with("Max address space"))
+                .and_then(|l| l.split_whitespace().nth(3))
+                .and_then(|v| v.parse::<f64>().ok())
+        })
+        .unwrap_or(f64::INFINITY)
+}
+
+/// The memory limit of this process's control group, bytes; infinite when
+/// there is none or it cannot be read.
+fn cgroup_limit() -> f64 {
+    let Ok(groups) = std::fs::read_to_string("/proc/self/cgroup") else {
+        return f64::INFINITY;
+    };
+    let mut limit = f64::INFINITY;
+    for line in groups.lines() {
+        let mut parts = line.splitn(3, ':');
+        let (Some(_), Some(controllers), Some(path)) = (parts.next(), parts.next(), parts.next())
+        else {
+            continue;
+        };
+        let candidates = if controllers.is_empty() {
+            vec![format!("/sys/fs/cgroup{path}/memory.max")]
+        } else if controllers.split(',').any(|c| c == "memory") {
+            vec![
+                format!("/sys/fs/cgroup/memory{path}/memory.limit_in_bytes"),
+                "/sys/fs/cgroup/memory/memory.limit_in_bytes".to_string(),
+            ]
+        } else {
+            continue;
+        };
+        for file in candidates {
+            if let Some(v) = std::fs::read_to_string(&file)
+                .ok()
+                .and_then(|t| t.trim().parse::<f64>().ok())
+            {
+                limit = limit.min(v);
+                break;
+            }
+        }
+    }
+    limit
 }
 
 /// Refuses plans whose estimated memory exceeds the limit.
@@ -152,7 +217,7 @@ pub fn memory_limit_bytes() -> f64 {
 /// with both numbers.
 pub fn check_memory(plan: &Plan) -> Result<()> {
     let needed = estimate_memory_bytes(plan);
-    let limit = memory_limit_bytes();
+    let limit = memory_limit_bytes()?;
     if needed > limit {
         let too_large = Error::TooLarge {
             what: format!("a {n}x{n} grid", n = plan.grid.n()),
@@ -208,8 +273,28 @@ fn prepare(plan: &Plan) -> Result<Prepared> {
     let source = plan
         .source
         .field(plan.grid, plan.wavelength_m, plan.power_w)?;
+    let (warnings, width_factor) = source_findings(plan, &source, true)?;
+    Ok(Prepared {
+        warnings,
+        width_factor,
+        source,
+    })
+}
+
+/// What the sampled source says about the plan: the warnings (static
+/// advice and the window check) and `sqrt(M²)`.
+///
+/// `exact` is false when `source` is a planning sample on a coarser grid
+/// of the same window ([`planning_sample`]); its power then only tells the
+/// captured fraction, not the grid's resolution of the beam.
+///
+/// # Errors
+/// [`Error::Layout`] naming the grid when the grid holds more than 1 %
+/// more power than the source carries, or a beam that fits the window
+/// loses more than 1 % (the grid does not resolve it).
+fn source_findings(plan: &Plan, source: &Field, exact: bool) -> Result<(Vec<String>, f64)> {
     let trace = paraxial::trace(plan);
-    let width_factor = source_width_factor(plan, &source);
+    let width_factor = source_width_factor(plan, source);
     let mut warnings = plan.warnings.clone();
     // Closed-form sources carry the layout's power analytically, so the
     // power on the grid says how much of the beam the window holds.
@@ -218,6 +303,27 @@ fn prepare(plan: &Plan) -> Result<Prepared> {
     } else {
         source.power_w() / plan.power_w
     };
+    let fits = source_extent_m(plan).is_some_and(|r| r < plan.grid.width_m() / 2.0);
+    if exact && (captured > 1.0 + UNRESOLVED_SOURCE_FRACTION || (fits && captured < 1.0 - UNRESOLVED_SOURCE_FRACTION)) {
+        let w = plan
+            .source
+            .embedded_gaussian()
+            .map(|(beam, at)| beam.radius_at(-at))
+            .unwrap_or(f64::NAN);
+        return Err(Error::Layout {
+            path: plan.path.clone(),
+            line: plan.grid_line,
+            message: format!(
+                "grid.spacing: the grid does not resolve the source: sampled at {} it holds {:.4} W of the {:.4} W source ({:+.2} %); use spacing ≤ {} (8 samples per beam radius {})",
+                fmt_len(plan.grid.spacing_m()),
+                source.power_w(),
+                plan.power_w,
+                100.0 * (captured - 1.0),
+                fmt_len(w / advisor::MIN_SAMPLES_PER_RADIUS),
+                fmt_len(w)
+            ),
+        });
+    }
     if 1.0 - captured > BORDER_WARNING_FRACTION {
         warnings.push(format!(
             "source: the {} window holds only {:.6} of the source power; the rest is not simulated (the field is not rescaled to make up for it): enlarge the window n·dx",
@@ -226,20 +332,78 @@ fn prepare(plan: &Plan) -> Result<Prepared> {
         ));
     }
     warnings.extend(advisor::advise(plan, trace.as_ref(), width_factor));
-    Ok(Prepared {
-        warnings,
-        width_factor,
-        source,
-    })
+    Ok((warnings, width_factor))
 }
 
-/// Static plan warnings (used by `check`; `run` reports the same).
+/// Largest power mismatch between the sampled source and `beam.power` that
+/// is put down to sampling (beyond it the plan is refused).
+const UNRESOLVED_SOURCE_FRACTION: f64 = 0.01;
+
+/// Samples per side above which planning samples the source on a coarser
+/// grid or a sub-window (`check` then stays within a few tens of MiB).
+const PLANNING_MAX_N: usize = 1024;
+
+/// Radius outside which a closed-form source holds less than ~1e-12 of its
+/// power at the source plane, metres: `w·(sqrt(N + 1) + 4)` for a mode of
+/// order N (the Hermite/Laguerre-Gauss envelope ends near `w·sqrt(N + 1/2)`,
+/// beyond which it decays like a Gaussian; common practice), the radius
+/// plus one sample for a flat-top, none for sampled sources.
+fn source_extent_m(plan: &Plan) -> Option<f64> {
+    let dx = plan.grid.spacing_m();
+    match &plan.source {
+        Source::Mode { mode, waist_at_m } => {
+            let w = mode.beam.radius_at(-waist_at_m);
+            Some(w * ((mode.shape.order() as f64 + 1.0).sqrt() + 4.0))
+        }
+        Source::Superposition {
+            modes,
+            beam,
+            waist_at_m,
+        } => {
+            let order = modes.terms.iter().map(|(m, _)| m.shape.order()).max()?;
+            Some(beam.radius_at(-waist_at_m) * ((order as f64 + 1.0).sqrt() + 4.0))
+        }
+        Source::FlatTop { radius_m } => Some(radius_m + 2.0 * dx),
+        Source::Sampled { .. } => None,
+    }
+}
+
+/// The source sampled for planning without holding the whole grid: on the
+/// same samples but only over the central square that holds the beam
+/// ([`source_extent_m`]) when that is at most [`PLANNING_MAX_N`] wide
+/// (the power and moments are then those of the full grid), else over the
+/// whole window at a coarser spacing (`n = PLANNING_MAX_N`; the beam then
+/// spans over a hundred samples of it, so its power and moments are
+/// accurate, but the grid's resolution is not tested). Returns the field
+/// and whether it is exact.
+fn planning_sample(plan: &Plan) -> Result<(Field, bool)> {
+    let n = plan.grid.n();
+    let dx = plan.grid.spacing_m();
+    let sub = source_extent_m(plan).map(|r| 2 * ((r / dx).ceil() as usize).saturating_add(1));
+    let grid = match sub {
+        _ if n <= PLANNING_MAX_N => plan.grid,
+        Some(side) if side <= PLANNING_MAX_N => Grid::new(side.min(n), dx)?,
+        _ => match plan.source {
+            Source::Sampled { .. } => plan.grid,
+            _ => Grid::new(PLANNING_MAX_N, plan.grid.width_m() / PLANNING_MAX_N as f64)?,
+        },
+    };
+    let exact = grid.spacing_m() == dx;
+    let field = plan.source.field(grid, plan.wavelength_m, plan.power_w)?;
+    Ok((field, exact))
+}
+
+/// Static plan warnings (used by `check`; `run` reports the same). The
+/// source is sampled only where the beam is, or on a coarser grid, so that
+/// checking a large grid needs little memory ([`planning_sample`]).
 ///
 /// # Errors
-/// [`Error::Layout`] if the grid is too large for memory; as
-/// [`crate::layout::Source::field`] (the source is sampled to measure it).
+/// [`Error::Layout`] if the grid is too large for memory or does not
+/// resolve the source; as [`crate::layout::Source::field`].
 pub fn plan_warnings(plan: &Plan) -> Result<Vec<String>> {
-    prepare(plan).map(|p| p.warnings)
+    check_memory(plan)?;
+    let (source, exact) = planning_sample(plan)?;
+    source_findings(plan, &source, exact).map(|(w, _)| w)
 }
 
 /// Power in the outer `BORDER_FRACTION` of the grid, watts.

@@ -100,7 +100,7 @@ fn parse_with(
 ) -> Result<f64> {
     let err = |expected: String| Error::Quantity {
         quantity,
-        text: text.to_string(),
+        text: crate::error::echo(text),
         expected,
     };
     let lower = text
@@ -227,7 +227,7 @@ impl Wavefront {
             .map(Wavefront::Length)
             .map_err(|_| Error::Quantity {
                 quantity: "wavefront",
-                text: text.to_string(),
+                text: crate::error::echo(text),
                 expected: WAVEFRONT_EXPECTED.to_string(),
             })
     }

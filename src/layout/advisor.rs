@@ -38,18 +38,35 @@ pub fn fmt_len(m: f64) -> String {
 }
 
 /// The next size ≥ `n` whose prime factors are 2, 3, 5 and 7 (fast FFTs).
+///
+/// Found by enumerating the products 2^a·3^b·5^c·7^d, so it takes at most a
+/// few thousand steps whatever `n` is; sizes beyond 2^62 (never a usable
+/// grid) are returned unchanged.
 pub fn fft_friendly(n: usize) -> usize {
-    (n.max(2)..)
-        .find(|&k| {
-            let mut k = k;
-            for p in [2, 3, 5, 7] {
-                while k % p == 0 {
-                    k /= p;
+    let n = n.max(2) as u128;
+    if n > 1 << 62 {
+        return n as usize;
+    }
+    let mut best = u128::MAX;
+    let mut p7 = 1u128;
+    while p7 < best {
+        let mut p5 = p7;
+        while p5 < best {
+            let mut p3 = p5;
+            while p3 < best {
+                // The smallest power of two taking p3 to at least n.
+                let mut k = p3;
+                while k < n {
+                    k *= 2;
                 }
+                best = best.min(k);
+                p3 *= 3;
             }
-            k == 1
-        })
-        .unwrap_or(n)
+            p5 *= 5;
+        }
+        p7 *= 7;
+    }
+    best as usize
 }
 
 /// Static warnings for a plan. `width_factor` is `sqrt(M²)` (second-moment
@@ -278,5 +295,13 @@ mod tests {
         assert_eq!(fft_friendly(1023), 1024);
         assert_eq!(fft_friendly(1021), 1024);
         assert_eq!(fft_friendly(11), 12);
+        assert_eq!(fft_friendly(0), 2);
+        assert_eq!(fft_friendly(2), 2);
+        assert_eq!(fft_friendly(13), 14);
+        assert_eq!(fft_friendly(65537), 65610); // 2·3^8·5 (brute-force search, common practice)
+        // Bounded time for absurd suggestions (a 1 pm step then 1 m).
+        assert!(fft_friendly(usize::MAX) == usize::MAX);
+        let big = fft_friendly(1 << 61 | 1);
+        assert!(big > 1 << 61 && big <= 1 << 62);
     }
 }

@@ -59,12 +59,44 @@ fn allowed_keys(kind: &str) -> &'static [&'static str] {
 /// [`Error::Io`] if the file cannot be read; [`Error::Layout`] for anything
 /// wrong inside it.
 pub fn load(path: &Path) -> Result<Plan> {
-    let text = std::fs::read_to_string(path).map_err(|source| Error::Io {
+    use std::io::Read;
+    let io = |source| Error::Io {
         path: path.to_path_buf(),
         source,
+    };
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)
+        .map_err(io)?
+        .take(MAX_LAYOUT_BYTES + 1)
+        .read_to_end(&mut bytes)
+        .map_err(io)?;
+    if bytes.len() as u64 > MAX_LAYOUT_BYTES {
+        return Err(Error::File {
+            path: path.to_path_buf(),
+            message: format!(
+                "larger than {} KiB; a layout is a short TOML text (is this the right file?)",
+                MAX_LAYOUT_BYTES / 1024
+            ),
+        });
+    }
+    let text = String::from_utf8(bytes).map_err(|e| {
+        let at = e.utf8_error().valid_up_to();
+        let line = e.as_bytes()[..at].iter().filter(|&&b| b == b'\n').count() + 1;
+        Error::Layout {
+            path: path.to_path_buf(),
+            line: Some(line),
+            message: format!("not valid UTF-8 text (first bad byte at offset {at}); save the layout as UTF-8"),
+        }
     })?;
     parse(&text, path)
 }
+
+/// Longest probe name: it becomes part of file names.
+pub const MAX_PROBE_NAME_CHARS: usize = 64;
+
+/// Largest layout file read, bytes (layouts are a few kilobytes; this
+/// stops `check /dev/zero` from reading until memory runs out).
+pub const MAX_LAYOUT_BYTES: u64 = 1 << 20;
 
 /// Validates layout text as if read from `path` (used for messages and to
 /// resolve relative file names).
@@ -133,12 +165,20 @@ impl Ctx<'_> {
         } else if let Some(rest) = raw.strip_prefix("unknown field `") {
             let name = rest.split('`').next().unwrap_or("");
             let mut choices: Vec<&str> = rest
-                .split("expected one of ")
-                .nth(1)
-                .map(|l| l.split(", ").map(|c| c.trim_matches(['`', ' '])).collect())
+                .split_once("expected ")
+                .map(|(_, l)| {
+                    l.trim_start_matches("one of ")
+                        .split(", ")
+                        .flat_map(|c| c.split(" or "))
+                        .map(|c| c.trim_matches(['`', ' ']))
+                        .filter(|c| !c.is_empty())
+                        .collect()
+                })
                 .unwrap_or_default();
-            // Inside an element, offer only the keys of its kind.
-            if let Some(kind) = self.element_kind_at(span.start) {
+            // Directly inside an element, offer only the keys of its kind
+            // (inside its inline tables, serde's list is the right one).
+            let in_element_table = key.starts_with("element[") && !key.contains('.');
+            if let (true, Some(kind)) = (in_element_table, self.element_kind_at(span.start)) {
                 let allowed = allowed_keys(kind);
                 if !allowed.is_empty() {
                     choices = ["kind", "name"]
@@ -150,10 +190,15 @@ impl Ctx<'_> {
             let hint = closest(name, &choices)
                 .map(|c| format!(" (did you mean '{c}'?)"))
                 .unwrap_or_default();
-            format!(
-                "unknown key '{name}'{hint}; keys allowed here: {}",
-                choices.join(", ")
-            )
+            let name = crate::error::echo(name);
+            if choices.is_empty() {
+                format!("unknown key '{name}'; this table takes no such key")
+            } else {
+                format!(
+                    "unknown key '{name}'{hint}; keys allowed here: {}",
+                    choices.join(", ")
+                )
+            }
         } else if let Some(rest) = raw.strip_prefix("missing field `") {
             format!("missing key '{}'", rest.split('`').next().unwrap_or(""))
         } else if raw.starts_with("invalid type:") {
@@ -172,6 +217,8 @@ impl Ctx<'_> {
         } else if let Some(rest) = raw.strip_prefix("invalid length ") {
             let found = rest.split(',').next().unwrap_or("?");
             format!("expected two values [x, y], found {found}")
+        } else if raw.is_empty() {
+            "a value is missing after '=' (write it, e.g. \"1064 nm\")".to_string()
         } else {
             raw
         };
@@ -218,14 +265,12 @@ impl Ctx<'_> {
         let head = &before[line_start..];
         let mut keys: Vec<String> = Vec::new();
         // Outer key before '=' at the line start, then inner keys of inline tables.
+        // A part that ends at the start of a key (after '{' or ',') adds
+        // nothing: the error is about that key, named in the message.
         for part in head.split('{') {
-            if let Some(eq) = part.rfind('=') {
-                let k = part[..eq]
-                    .rsplit(',')
-                    .next()
-                    .unwrap_or("")
-                    .trim()
-                    .trim_matches('"');
+            let last = part.rsplit(',').next().unwrap_or("");
+            if let Some(eq) = last.rfind('=') {
+                let k = last[..eq].trim().trim_matches('"');
                 if !k.is_empty() && !k.starts_with('[') {
                     keys.push(k.to_string());
                 }
@@ -335,11 +380,14 @@ impl Ctx<'_> {
             let entry = spanned.get_ref();
             let (op, after) = self.element(index, line, entry, current, wavelength_m)?;
             if let Operation::Probe(p) = &op {
-                if probe_names.contains(&p.name) {
+                if let Some(other) = probe_names
+                    .iter()
+                    .find(|other| other.eq_ignore_ascii_case(&p.name))
+                {
                     return Err(self.err(
                         self.key_line(line, "name").or(line),
                         format!(
-                            "element[{index}].name: probe name '{}' is used twice",
+                            "element[{index}].name: probe name '{}' is used twice ('{other}'; names become file names, and some file systems ignore case)",
                             p.name
                         ),
                     ));
@@ -453,7 +501,7 @@ impl Ctx<'_> {
         for key in present {
             if !allowed.contains(&key) {
                 return Err(self.err(
-                    line,
+                    self.key_line(line, key).or(line),
                     format!(
                         "source.{key}: does not apply to a {kind} source (its keys: {})",
                         allowed.join(", ")
@@ -479,7 +527,7 @@ impl Ctx<'_> {
                     format!("source.{key}: missing (required for a {kind} source)"),
                 )
             })?;
-            if (!signed && v < 0) || v.abs() > 60 {
+            if (!signed && v < 0) || v.unsigned_abs() > 60 {
                 return Err(self.err(
                     line,
                     format!(
@@ -570,7 +618,7 @@ impl Ctx<'_> {
                     format!("{key}.{name}: missing (required for a {} term)", t.kind),
                 )
             })?;
-            if (!signed && v < 0) || v.abs() > 60 {
+            if (!signed && v < 0) || v.unsigned_abs() > 60 {
                 return Err(self.err(line, format!("{key}.{name}: {v} is out of range")));
             }
             Ok(v)
@@ -815,7 +863,7 @@ impl Ctx<'_> {
             }
             "vortex" => {
                 let charge = *self.required(&key("charge"), line, &e.charge)?;
-                if charge == 0 || charge.abs() > 200 {
+                if charge == 0 || charge.unsigned_abs() > 200 {
                     return Err(self.err(line, format!("{}: {charge} is out of range (expected a non-zero integer, |charge| ≤ 200)", key("charge"))));
                 }
                 Operation::Vortex(Vortex {
@@ -910,12 +958,21 @@ impl Ctx<'_> {
                 ),
             )
         })?;
+        let name_line = self.key_line(line, "name").or(line);
         if name.is_empty()
+            || name.chars().count() > MAX_PROBE_NAME_CHARS
             || !name
                 .chars()
                 .all(|c| c.is_ascii_alphanumeric() || c == '-' || c == '_')
         {
-            return Err(self.err(line, format!("{}: '{name}' must be non-empty and use only letters, digits, '-' and '_' (it names files)", key("name"))));
+            return Err(self.err(
+                name_line,
+                format!(
+                    "{}: '{}' must be 1 to {MAX_PROBE_NAME_CHARS} characters of letters, digits, '-' and '_' (it names files)",
+                    key("name"),
+                    crate::error::echo(&name)
+                ),
+            ));
         }
         let mut spec = ProbeSpec {
             name,
@@ -947,6 +1004,7 @@ impl Ctx<'_> {
             }
         }
         if let Some(m) = &e.modes {
+            let line = self.key_line(line, "modes").or(line);
             let basis = match m.basis.as_str() {
                 "laguerre-gauss" => Basis::LaguerreGauss,
                 "hermite-gauss" => Basis::HermiteGauss,
@@ -986,6 +1044,7 @@ impl Ctx<'_> {
             });
         }
         if let Some(c) = &e.caustic {
+            let line = self.key_line(line, "caustic").or(line);
             let span_m = self.positive_length(&key("caustic.span"), &c.span)?;
             if !(10..=401).contains(&c.planes) {
                 return Err(self.err(line, format!("{}: {} is out of range (expected 10 to 401; ISO 11146 asks for at least 10)", key("caustic.planes"), c.planes)));
@@ -1057,10 +1116,16 @@ fn closest<'a>(name: &str, choices: &[&'a str]) -> Option<&'a str> {
         }
         d[a.len()][b.len()]
     }
+    // A suggestion only when the typo is small next to the word: one edit
+    // in up to four characters, two in longer words (common practice).
+    let allowed = |len: usize| if len <= 4 { 1 } else { 2 };
+    if name.chars().count() > 64 {
+        return None;
+    }
     choices
         .iter()
         .map(|c| (distance(name, c), *c))
-        .filter(|(d, _)| *d <= 2)
+        .filter(|(d, c)| *d <= allowed(name.chars().count().min(c.chars().count())))
         .min()
         .map(|(_, c)| c)
 }

@@ -35,10 +35,17 @@ pub fn dispatch(cli: Cli) -> Result<ExitCode> {
     }
 }
 
+/// Most worker threads `--threads` accepts (more only adds overhead).
+pub const MAX_THREADS: usize = 1024;
+
 fn set_threads(threads: Option<usize>) -> Result<()> {
     if let Some(n) = threads {
-        if n == 0 {
-            return Err(Error::out_of_range("--threads", 0, "expected at least 1"));
+        if n == 0 || n > MAX_THREADS {
+            return Err(Error::out_of_range(
+                "--threads",
+                n,
+                format!("expected 1 to {MAX_THREADS}"),
+            ));
         }
         rayon::ThreadPoolBuilder::new()
             .num_threads(n)
@@ -321,7 +328,7 @@ fn check(layout_path: &Path) -> Result<ExitCode> {
     s.push_str(&format!(
         "estimated peak memory {:.0} MiB (limit {:.0} MiB)\n",
         run::estimate_memory_bytes(&plan) / 1048576.0,
-        run::memory_limit_bytes() / 1048576.0
+        run::memory_limit_bytes()? / 1048576.0
     ));
     for step in &plan.steps {
         let g0 = step.grid_before;
