@@ -135,6 +135,10 @@ impl Error {
 /// escaped and anything beyond 40 characters cut with "…", so a message
 /// stays one short line whatever was written.
 pub fn echo(text: &str) -> String {
+    shorten_value(text)
+}
+
+fn shorten_value(text: &str) -> String {
     const MAX: usize = 40;
     let mut out = String::new();
     for (i, c) in text.chars().enumerate() {
@@ -149,6 +153,59 @@ pub fn echo(text: &str) -> String {
         }
     }
     out
+}
+
+/// Longest layout message, in characters, before [`shorten`] cuts its
+/// middle (the file name and line come on top).
+pub const MAX_MESSAGE_CHARS: usize = 240;
+
+/// A message made safe to print as one line: control characters escaped,
+/// each quoted value (between `"`, `'` or backquotes) cut to 40 characters
+/// with "…", and the whole cut in the middle beyond
+/// [`MAX_MESSAGE_CHARS`].
+pub fn shorten(message: &str) -> String {
+    const MAX_QUOTED: usize = 40;
+    let mut out = String::with_capacity(message.len().min(4 * MAX_MESSAGE_CHARS));
+    let mut quote: Option<char> = None;
+    let mut quoted = 0usize;
+    for c in message.chars() {
+        match quote {
+            Some(q) if c == q => {
+                quote = None;
+                out.push(c);
+                continue;
+            }
+            None if matches!(c, '"' | '`') || (c == '\'' && out.ends_with([' ', '(', ':'])) => {
+                quote = Some(c);
+                quoted = 0;
+                out.push(c);
+                continue;
+            }
+            _ => {}
+        }
+        if quote.is_some() {
+            quoted += 1;
+            if quoted == MAX_QUOTED + 1 {
+                out.push('…');
+            }
+            if quoted > MAX_QUOTED {
+                continue;
+            }
+        }
+        if c.is_control() {
+            out.extend(c.escape_default());
+        } else {
+            out.push(c);
+        }
+    }
+    let count = out.chars().count();
+    if count <= MAX_MESSAGE_CHARS {
+        return out;
+    }
+    let keep = (MAX_MESSAGE_CHARS - 3) / 2;
+    let head: String = out.chars().take(keep).collect();
+    let tail: String = out.chars().skip(count - keep).collect();
+    format!("{head} … {tail}")
 }
 
 /// Result alias used throughout the library.

@@ -304,7 +304,10 @@ fn source_findings(plan: &Plan, source: &Field, exact: bool) -> Result<(Vec<Stri
         source.power_w() / plan.power_w
     };
     let fits = source_extent_m(plan).is_some_and(|r| r < plan.grid.width_m() / 2.0);
-    if exact && (captured > 1.0 + UNRESOLVED_SOURCE_FRACTION || (fits && captured < 1.0 - UNRESOLVED_SOURCE_FRACTION)) {
+    if exact
+        && (captured > 1.0 + UNRESOLVED_SOURCE_FRACTION
+            || (fits && captured < 1.0 - UNRESOLVED_SOURCE_FRACTION))
+    {
         let w = plan
             .source
             .embedded_gaussian()
@@ -676,8 +679,18 @@ fn measure_probe(
     let irradiance = field.irradiance();
     let power_w = field.power_w();
     let mut warnings = Vec::new();
-    let iso = measure::iso_moments(&irradiance, grid)?;
-    let plain = measure::plain_moments(&irradiance, grid)?;
+    let iso = optional(
+        "widths (ISO 11146)",
+        &mut warnings,
+        measure::iso_moments(&irradiance, grid),
+    )?
+    .unwrap_or_else(measure::Moments::undefined);
+    let plain = optional(
+        "plain second moments",
+        &mut warnings,
+        measure::plain_moments(&irradiance, grid),
+    )?
+    .unwrap_or_else(measure::Moments::undefined);
     if !iso.converged {
         warnings.push(format!(
             "the ISO 11146 integration area did not converge after {} iterations; widths are approximate",
@@ -757,50 +770,59 @@ fn measure_probe(
                 waist_m: m.waist_m,
                 z_from_waist_m: m.waist_at_m.map(|at| step.z_m - at),
             };
-            let d = measure::decompose(field, m.basis, m.order, &choice)?;
-            let records = d
-                .terms
-                .iter()
-                .map(|t| {
-                    let (p, l, mm, nn) = match t.shape {
-                        crate::beams::ModeShape::LaguerreGauss { p, l } => {
-                            (Some(p), Some(l), None, None)
+            let decomposed = optional(
+                "modal decomposition",
+                &mut warnings,
+                measure::decompose(field, m.basis, m.order, &choice),
+            )?;
+            match decomposed {
+                None => (None, None),
+                Some(d) => {
+                    let records = d
+                        .terms
+                        .iter()
+                        .map(|t| {
+                            let (p, l, mm, nn) = match t.shape {
+                                crate::beams::ModeShape::LaguerreGauss { p, l } => {
+                                    (Some(p), Some(l), None, None)
+                                }
+                                crate::beams::ModeShape::HermiteGauss { m, n } => {
+                                    (None, None, Some(m), Some(n))
+                                }
+                            };
+                            ModeRecord {
+                                p,
+                                l,
+                                m: mm,
+                                n: nn,
+                                power_fraction: t.power_fraction,
+                                phase_rad: t.phase_rad,
+                            }
+                        })
+                        .collect();
+                    warnings.extend(d.warnings.iter().cloned());
+                    let rule = d.rule.clone();
+                    let basis = BasisRecord {
+                        basis: match m.basis {
+                            Basis::LaguerreGauss => "laguerre-gauss",
+                            Basis::HermiteGauss => "hermite-gauss",
                         }
-                        crate::beams::ModeShape::HermiteGauss { m, n } => {
-                            (None, None, Some(m), Some(n))
-                        }
+                        .to_string(),
+                        waist_m: d.waist_m,
+                        waist_z_m: step.z_m - d.z_from_waist_m,
+                        captured_fraction: d.captured_fraction,
+                        rule,
                     };
-                    ModeRecord {
-                        p,
-                        l,
-                        m: mm,
-                        n: nn,
-                        power_fraction: t.power_fraction,
-                        phase_rad: t.phase_rad,
-                    }
-                })
-                .collect();
-            warnings.extend(d.warnings.iter().cloned());
-            let rule = d.rule.clone();
-            let basis = BasisRecord {
-                basis: match m.basis {
-                    Basis::LaguerreGauss => "laguerre-gauss",
-                    Basis::HermiteGauss => "hermite-gauss",
-                }
-                .to_string(),
-                waist_m: d.waist_m,
-                waist_z_m: step.z_m - d.z_from_waist_m,
-                captured_fraction: d.captured_fraction,
-                rule,
-            };
-            if d.captured_fraction < 0.9 {
-                warnings.push(format!(
+                    if d.captured_fraction < 0.9 {
+                        warnings.push(format!(
                     "the truncated {} basis captures only {:.1} % of the power; raise modes.order or set modes.waist",
                     basis.basis,
                     100.0 * d.captured_fraction
                 ));
+                    }
+                    (Some(records), Some(basis))
+                }
             }
-            (Some(records), Some(basis))
         }
         None => (None, None),
     };
@@ -835,40 +857,48 @@ fn measure_probe(
     });
     let mut files = BTreeMap::new();
     let caustic = match &spec.caustic {
-        Some(options) => {
-            let c = measure::caustic(field, options)?;
-            warnings.extend(c.warnings.iter().cloned());
-            let record = CausticRecord {
-                m2: [c.fit[0].m2, c.fit[1].m2],
-                waist_d4sigma_m: [c.fit[0].waist_d4sigma_m, c.fit[1].waist_d4sigma_m],
-                waist_z_m: [step.z_m + c.fit[0].waist_z_m, step.z_m + c.fit[1].waist_z_m],
-                rayleigh_m: [c.fit[0].rayleigh_m, c.fit[1].rayleigh_m],
-                divergence_rad: [c.fit[0].divergence_rad, c.fit[1].divergence_rad],
-                residual_rms_m: [c.fit[0].residual_rms_m, c.fit[1].residual_rms_m],
-                z_m: c.z_m.iter().map(|z| step.z_m + z).collect(),
-                d4sigma_m: c.d4sigma_m.clone(),
-            };
-            if let Some(dir) = out_dir {
-                let name = format!("{}_caustic.png", spec.name);
-                crate::report::plot::write_caustic_plot(
-                    &dir.join(&name),
-                    &crate::report::plot::CausticPlot {
-                        z_m: &record.z_m,
-                        d4sigma_m: &record.d4sigma_m,
-                        fit: caustic_fit_in_absolute_z(&c, step.z_m),
-                        m2: record.m2,
-                        title: &format!(
-                            "{} — caustic about {} at z = {}",
-                            plan.title,
-                            spec.name,
-                            fmt_len(step.z_m)
-                        ),
-                    },
-                )?;
-                files.insert("caustic".to_string(), name);
+        Some(options) => match optional(
+            "caustic (M²)",
+            &mut warnings,
+            measure::caustic(field, options),
+        )? {
+            None => None,
+            Some(c) => {
+                warnings.extend(c.warnings.iter().cloned());
+                let record = CausticRecord {
+                    m2: [c.fit[0].m2, c.fit[1].m2],
+                    waist_d4sigma_m: [c.fit[0].waist_d4sigma_m, c.fit[1].waist_d4sigma_m],
+                    waist_z_m: [step.z_m + c.fit[0].waist_z_m, step.z_m + c.fit[1].waist_z_m],
+                    rayleigh_m: [c.fit[0].rayleigh_m, c.fit[1].rayleigh_m],
+                    divergence_rad: [c.fit[0].divergence_rad, c.fit[1].divergence_rad],
+                    residual_rms_m: [c.fit[0].residual_rms_m, c.fit[1].residual_rms_m],
+                    z_m: c.z_m.iter().map(|z| step.z_m + z).collect(),
+                    d4sigma_m: c.d4sigma_m.clone(),
+                };
+                if let Some(dir) = out_dir {
+                    let name = format!("{}_caustic.png", spec.name);
+                    let written = crate::report::plot::write_caustic_plot(
+                        &dir.join(&name),
+                        &crate::report::plot::CausticPlot {
+                            z_m: &record.z_m,
+                            d4sigma_m: &record.d4sigma_m,
+                            fit: caustic_fit_in_absolute_z(&c, step.z_m),
+                            m2: record.m2,
+                            title: &format!(
+                                "{} — caustic about {} at z = {}",
+                                plan.title,
+                                spec.name,
+                                fmt_len(step.z_m)
+                            ),
+                        },
+                    );
+                    if picture(&name, dir, &mut warnings, written)? {
+                        files.insert("caustic".to_string(), name);
+                    }
+                }
+                Some(record)
             }
-            Some(record)
-        }
+        },
         None => None,
     };
     if let Some(dir) = out_dir {
@@ -880,12 +910,14 @@ fn measure_probe(
         );
         if spec.save_intensity {
             let name = format!("{}_intensity.png", spec.name);
-            crate::report::png::write_intensity_png(&dir.join(&name), field, &title)?;
-            files.insert("intensity".to_string(), name);
+            let written = crate::report::png::write_intensity_png(&dir.join(&name), field, &title);
+            if picture(&name, dir, &mut warnings, written)? {
+                files.insert("intensity".to_string(), name);
+            }
         }
         if spec.save_intensity_log {
             let name = format!("{}_intensity_log.png", spec.name);
-            crate::report::png::write_intensity_png_with(
+            let written = crate::report::png::write_intensity_png_with(
                 &dir.join(&name),
                 field,
                 &title,
@@ -893,18 +925,24 @@ fn measure_probe(
                     window: None,
                     scale: crate::report::png::IrradianceScale::Logarithmic { decades: 4.0 },
                 },
-            )?;
-            files.insert("intensity_log".to_string(), name);
+            );
+            if picture(&name, dir, &mut warnings, written)? {
+                files.insert("intensity_log".to_string(), name);
+            }
         }
         if spec.save_phase {
             let name = format!("{}_phase.png", spec.name);
-            crate::report::png::write_phase_png(&dir.join(&name), field, &title)?;
-            files.insert("phase".to_string(), name);
+            let written = crate::report::png::write_phase_png(&dir.join(&name), field, &title);
+            if picture(&name, dir, &mut warnings, written)? {
+                files.insert("phase".to_string(), name);
+            }
         }
         if spec.save_field {
             let name = format!("{}_field.npy", spec.name);
-            crate::report::npy::write_field_npy(&dir.join(&name), field)?;
-            files.insert("field".to_string(), name);
+            let written = crate::report::npy::write_field_npy(&dir.join(&name), field);
+            if picture(&name, dir, &mut warnings, written)? {
+                files.insert("field".to_string(), name);
+            }
         }
         if let Some(prof) = &profile {
             let name = format!("{}_profile.png", spec.name);
@@ -924,7 +962,7 @@ fn measure_probe(
                 }
                 _ => None,
             };
-            crate::report::plot::write_radial_profile_plot(
+            let written = crate::report::plot::write_radial_profile_plot(
                 &dir.join(&name),
                 r,
                 i,
@@ -937,8 +975,10 @@ fn measure_probe(
                     spec.name,
                     fmt_len(step.z_m)
                 ),
-            )?;
-            files.insert("profile".to_string(), name);
+            );
+            if picture(&name, dir, &mut warnings, written)? {
+                files.insert("profile".to_string(), name);
+            }
         }
     }
     Ok(ProbeRecord {
@@ -971,6 +1011,39 @@ fn measure_probe(
         files,
         warnings,
     })
+}
+
+/// One measurement of a probe that may fail without discarding the run: a
+/// data problem (no power, non-finite values, an area that holds nothing)
+/// becomes a warning naming the quantity, and its value is reported as
+/// null; a file-system error still ends the run, since the output would be
+/// incomplete.
+fn optional<T>(what: &str, warnings: &mut Vec<String>, result: Result<T>) -> Result<Option<T>> {
+    match result {
+        Ok(v) => Ok(Some(v)),
+        Err(e @ Error::Io { .. }) => Err(e),
+        Err(e) => {
+            warnings.push(format!("{what} not computed (reported as null): {e}"));
+            Ok(None)
+        }
+    }
+}
+
+/// Like [`optional`] for a file the probe writes: true if it was written.
+/// The warning names the file without the run's working folder.
+fn picture(name: &str, dir: &Path, warnings: &mut Vec<String>, result: Result<()>) -> Result<bool> {
+    match result {
+        Ok(()) => Ok(true),
+        Err(e @ Error::Io { .. }) => Err(e),
+        Err(e) => {
+            let prefix = format!("{}/", dir.display());
+            warnings.push(format!(
+                "{name} not written: {}",
+                e.to_string().replace(&prefix, "")
+            ));
+            Ok(false)
+        }
+    }
 }
 
 /// The caustic's diameter fits `d² = a + b·z + c·z²` re-expressed in absolute z.

@@ -4,6 +4,8 @@
 
 /// Command-line end-to-end tests: run the binary, check report.json and exit status.
 mod cli;
+/// Seeded mutation fuzzing of layouts through check and run.
+mod fuzz;
 /// Beam measurements (ISO 11146 widths, M², modes, Strehl, encircled energy).
 mod measure;
 /// Propagation engine against closed forms (modes, Gouy phase, Airy, Fresnel).

@@ -299,7 +299,7 @@ mod tests {
         assert_eq!(fft_friendly(2), 2);
         assert_eq!(fft_friendly(13), 14);
         assert_eq!(fft_friendly(65537), 65610); // 2·3^8·5 (brute-force search, common practice)
-        // Bounded time for absurd suggestions (a 1 pm step then 1 m).
+                                                // Bounded time for absurd suggestions (a 1 pm step then 1 m).
         assert!(fft_friendly(usize::MAX) == usize::MAX);
         let big = fft_friendly(1 << 61 | 1);
         assert!(big > 1 << 61 && big <= 1 << 62);

@@ -85,11 +85,22 @@ pub fn load(path: &Path) -> Result<Plan> {
         Error::Layout {
             path: path.to_path_buf(),
             line: Some(line),
-            message: format!("not valid UTF-8 text (first bad byte at offset {at}); save the layout as UTF-8"),
+            message: format!(
+                "not valid UTF-8 text (first bad byte at offset {at}); save the layout as UTF-8"
+            ),
         }
     })?;
     parse(&text, path)
 }
+
+/// Largest length accepted anywhere in a layout, metres: far beyond any
+/// optical layout, small enough that squares and products of lengths stay
+/// finite.
+pub const MAX_LENGTH_M: f64 = 1e12;
+
+/// Largest source power, watts (above the peak power of any laser; keeps
+/// irradiances on the finest grid finite).
+pub const MAX_POWER_W: f64 = 1e18;
 
 /// Longest probe name: it becomes part of file names.
 pub const MAX_PROBE_NAME_CHARS: usize = 64;
@@ -114,7 +125,7 @@ pub fn parse(text: &str, path: &Path) -> Result<Plan> {
         Error::Layout {
             path: path.to_path_buf(),
             line,
-            message,
+            message: crate::error::shorten(&message),
         }
     })?;
     ctx.plan(file)
@@ -149,8 +160,8 @@ impl Ctx<'_> {
                 .split("e.g. \"")
                 .nth(1)
                 .and_then(|t| t.split_whitespace().next())
-                .unwrap_or("1")
-                .to_string();
+                .map(crate::error::echo)
+                .unwrap_or_else(|| "1".to_string());
             let unit = if key.contains("zernike.") {
                 "wave"
             } else {
@@ -314,7 +325,7 @@ impl Ctx<'_> {
         Error::Layout {
             path: self.path.to_path_buf(),
             line,
-            message: message.into(),
+            message: crate::error::shorten(&message.into()),
         }
     }
 
@@ -323,9 +334,21 @@ impl Ctx<'_> {
     }
 
     fn length(&self, key: &str, q: &Q) -> Result<f64> {
-        Length::parse(&q.get_ref().0)
+        let v = Length::parse(&q.get_ref().0)
             .map(Length::as_m)
-            .map_err(|e| self.wrap(key, q, e))
+            .map_err(|e| self.wrap(key, q, e))?;
+        if v.abs() > MAX_LENGTH_M {
+            return Err(self.wrap(
+                key,
+                q,
+                Error::out_of_range(
+                    "length",
+                    &q.get_ref().0,
+                    format!("expected at most {MAX_LENGTH_M:e} m in size"),
+                ),
+            ));
+        }
+        Ok(v)
     }
 
     fn positive_length(&self, key: &str, q: &Q) -> Result<f64> {
@@ -352,11 +375,15 @@ impl Ctx<'_> {
                 let p = Power::parse(&q.get_ref().0)
                     .map(Power::as_w)
                     .map_err(|e| self.wrap("beam.power", q, e))?;
-                if p <= 0.0 {
+                if p <= 0.0 || p > MAX_POWER_W {
                     return Err(self.wrap(
                         "beam.power",
                         q,
-                        Error::out_of_range("power", &q.get_ref().0, "expected a positive power"),
+                        Error::out_of_range(
+                            "power",
+                            &q.get_ref().0,
+                            format!("expected a positive power up to {MAX_POWER_W:e} W"),
+                        ),
                     ));
                 }
                 p

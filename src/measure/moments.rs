@@ -73,6 +73,22 @@ pub struct Moments {
 }
 
 impl Moments {
+    /// Moments of a beam that has none (no power, or not finite): every
+    /// value NaN, reported as null.
+    pub fn undefined() -> Self {
+        Self {
+            centroid_m: [f64::NAN; 2],
+            sigma2_m2: [f64::NAN; 2],
+            sigma_xy_m2: f64::NAN,
+            d4sigma_m: [f64::NAN; 2],
+            principal_d4sigma_m: [f64::NAN; 2],
+            azimuth_rad: f64::NAN,
+            converged: false,
+            iterations: 0,
+            window_power_fraction: f64::NAN,
+        }
+    }
+
     /// Second-moment radius `W = 2σ` along x and y, metres (`= w` for a
     /// Gaussian).
     pub fn radius_m(&self) -> [f64; 2] {
