@@ -9,7 +9,8 @@ use clap::{Parser, Subcommand};
 ///
 /// Exit status: 0 success; 1 a --strict run found a probe outside
 /// tolerance, or verify found a failing check; 2 bad input (file, key,
-/// unit, value) or a run that could not complete.
+/// unit, value) or a run that could not complete; 128+N stopped by signal
+/// N. A run never deletes or overwrites what it did not write.
 #[derive(Debug, Parser)]
 #[command(name = "beamwright", version, about)]
 pub struct Cli {
@@ -26,9 +27,10 @@ pub enum Command {
         /// The layout file (TOML).
         layout: PathBuf,
         /// Output directory (created; must not exist or be empty unless --force).
+        /// Never `.`, `..`, `/`, the home folder or a folder holding the layout.
         #[arg(short = 'o', long = "out", value_name = "DIR", default_value = "out")]
         out: PathBuf,
-        /// Worker threads (default: all cores). 1 runs sequentially.
+        /// Worker threads, 1 to 1024 (default: all cores). 1 runs sequentially.
         #[arg(long, value_name = "N")]
         threads: Option<usize>,
         /// No progress bar.
@@ -41,7 +43,8 @@ pub enum Command {
         /// Allowed width deviation for --strict, percent.
         #[arg(long, value_name = "PCT", default_value_t = 5.0)]
         tolerance: f64,
-        /// Replace a non-empty output directory.
+        /// Replace an output directory that a previous run wrote (only if it
+        /// holds nothing but that run's files).
         #[arg(long)]
         force: bool,
     },
